@@ -1,0 +1,2 @@
+export * from './so3.js';
+export * from './se3.js';

@@ -1,0 +1,146 @@
+/**
+ * SE(3): rigid transforms T_a_b = (R_a_b, t_a_b), mapping p_a = R_a_b p_b + t_a_b.
+ * R is a row-major 3x3 Float64Array(9), t a Float64Array(3).
+ *
+ * Tangent vectors are 6-vectors δ = [rx ry rz tx ty tz] (rotation first),
+ * applied on the left in the parent frame: T ← exp(δ)·T. See CONVENTIONS.md.
+ */
+import {
+  mat3Mul,
+  mat3MulVec,
+  mat3Transpose,
+  mat3TransposeMulVec,
+  mat3Identity,
+  type Mat3,
+  type Vec3,
+} from '../linalg/small.js';
+import { so3Exp, so3LeftJacobian, so3LeftJacobianInverse, so3Log } from './so3.js';
+
+export interface Pose {
+  /** Rotation R_a_b, row-major 3x3. */
+  R: Mat3;
+  /** Translation t_a_b (position of b's origin in a), metres. */
+  t: Vec3;
+}
+
+export function poseIdentity(): Pose {
+  return { R: mat3Identity(), t: new Float64Array(3) };
+}
+
+export function poseClone(T: Pose): Pose {
+  return { R: Float64Array.from(T.R), t: Float64Array.from(T.t) };
+}
+
+export function poseFrom(R: ArrayLike<number>, t: ArrayLike<number>): Pose {
+  return { R: Float64Array.from(R), t: Float64Array.from(t) };
+}
+
+/** T_a_c = T_a_b · T_b_c. */
+export function compose(T_a_b: Pose, T_b_c: Pose, out: Pose = poseIdentity()): Pose {
+  const t = new Float64Array(3);
+  mat3MulVec(t, T_a_b.R, T_b_c.t);
+  t[0]! += T_a_b.t[0]!;
+  t[1]! += T_a_b.t[1]!;
+  t[2]! += T_a_b.t[2]!;
+  mat3Mul(out.R, T_a_b.R, T_b_c.R);
+  out.t.set(t);
+  return out;
+}
+
+/** T_b_a = T_a_b⁻¹ = (Rᵀ, −Rᵀ t). */
+export function inverse(T_a_b: Pose, out: Pose = poseIdentity()): Pose {
+  const t = new Float64Array(3);
+  mat3TransposeMulVec(t, T_a_b.R, T_a_b.t);
+  mat3Transpose(out.R, T_a_b.R);
+  out.t[0] = -t[0]!;
+  out.t[1] = -t[1]!;
+  out.t[2] = -t[2]!;
+  return out;
+}
+
+/**
+ * act(T_a_b, p_b) → p_a = R p_b + t.
+ * J_pa_T (3x6, left perturbation of T_a_b): [−[p_a]×, I].
+ * J_pa_pb (3x3): R.
+ */
+export function act(T_a_b: Pose, p_b: ArrayLike<number>, out: Vec3 = new Float64Array(3), J_pa_T?: Float64Array, J_pa_pb?: Float64Array): Vec3 {
+  mat3MulVec(out, T_a_b.R, p_b);
+  out[0]! += T_a_b.t[0]!;
+  out[1]! += T_a_b.t[1]!;
+  out[2]! += T_a_b.t[2]!;
+  if (J_pa_T) {
+    const x = out[0]!, y = out[1]!, z = out[2]!;
+    // −[p]× = [[0, z, −y], [−z, 0, x], [y, −x, 0]]
+    J_pa_T[0] = 0; J_pa_T[1] = z; J_pa_T[2] = -y; J_pa_T[3] = 1; J_pa_T[4] = 0; J_pa_T[5] = 0;
+    J_pa_T[6] = -z; J_pa_T[7] = 0; J_pa_T[8] = x; J_pa_T[9] = 0; J_pa_T[10] = 1; J_pa_T[11] = 0;
+    J_pa_T[12] = y; J_pa_T[13] = -x; J_pa_T[14] = 0; J_pa_T[15] = 0; J_pa_T[16] = 0; J_pa_T[17] = 1;
+  }
+  if (J_pa_pb) J_pa_pb.set(T_a_b.R);
+  return out;
+}
+
+/**
+ * exp(δ) for δ = [ω, ρ]: R = exp([ω]×), t = J_l(ω) ρ (J_l the SO(3) left Jacobian).
+ */
+export function se3Exp(delta: ArrayLike<number>, out: Pose = poseIdentity()): Pose {
+  const w = [delta[0]!, delta[1]!, delta[2]!];
+  so3Exp(w, out.R);
+  const V = so3LeftJacobian(w);
+  mat3MulVec(out.t, V, [delta[3]!, delta[4]!, delta[5]!]);
+  return out;
+}
+
+/** log(T) = [ω, J_l(ω)⁻¹ t], the inverse of se3Exp. */
+export function se3Log(T: Pose, out: Float64Array = new Float64Array(6)): Float64Array {
+  const w = so3Log(T.R);
+  const Vinv = so3LeftJacobianInverse(w);
+  const rho = mat3MulVec(new Float64Array(3), Vinv, T.t);
+  out[0] = w[0]!;
+  out[1] = w[1]!;
+  out[2] = w[2]!;
+  out[3] = rho[0]!;
+  out[4] = rho[1]!;
+  out[5] = rho[2]!;
+  return out;
+}
+
+/**
+ * Left update T ← exp(δ)·T. Uses the simple retraction R ← exp(ω)R,
+ * t ← exp(ω)t + ρ', which is the exact group exponential composed on the
+ * left when ρ' = J_l(ω)ρ; we use the exact form so that boxplus and
+ * boxminus are consistent.
+ */
+export function boxPlus(T: Pose, delta: ArrayLike<number>, out: Pose = poseIdentity()): Pose {
+  return compose(se3Exp(delta), T, out);
+}
+
+/** δ = log(T1 · T0⁻¹), so that boxPlus(T0, δ) = T1. */
+export function boxMinus(T1: Pose, T0: Pose, out: Float64Array = new Float64Array(6)): Float64Array {
+  return se3Log(compose(T1, inverse(T0)), out);
+}
+
+/**
+ * Adjoint Ad(T) (6x6 row-major) for the [ω, ρ] ordering:
+ *   Ad(T) = [[R, 0], [[t]× R, R]],  with exp(Ad(T) δ) = T exp(δ) T⁻¹.
+ * Use: exp(δ)·T = T·exp(Ad(T⁻¹) δ).
+ */
+export function adjoint(T: Pose, out: Float64Array = new Float64Array(36)): Float64Array {
+  const R = T.R;
+  const tx = T.t[0]!, ty = T.t[1]!, tz = T.t[2]!;
+  out.fill(0);
+  for (let i = 0; i < 3; i++) {
+    for (let j = 0; j < 3; j++) {
+      const r = R[i * 3 + j]!;
+      out[i * 6 + j] = r;
+      out[(i + 3) * 6 + j + 3] = r;
+    }
+  }
+  // [t]× R
+  for (let j = 0; j < 3; j++) {
+    const r0 = R[j]!, r1 = R[3 + j]!, r2 = R[6 + j]!;
+    out[3 * 6 + j] = -tz * r1 + ty * r2;
+    out[4 * 6 + j] = tz * r0 - tx * r2;
+    out[5 * 6 + j] = -ty * r0 + tx * r1;
+  }
+  return out;
+}
