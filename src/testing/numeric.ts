@@ -83,20 +83,4 @@ export function expectMatrixClose(actual: ArrayLike<number>, expected: ArrayLike
   }
 }
 
-/** Small deterministic PRNG (mulberry32) for reproducible test data. */
-export function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
-
-/** Standard normal sample from a uniform generator (Box–Muller). */
-export function gaussian(u: () => number): number {
-  const a = Math.max(u(), 1e-300);
-  return Math.sqrt(-2 * Math.log(a)) * Math.cos(2 * Math.PI * u());
-}
+export { rng, gaussian } from '../util/random.js';

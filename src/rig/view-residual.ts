@@ -1,0 +1,206 @@
+/**
+ * Reprojection residual block for one view: all detections of one target
+ * by one camera in one frame.
+ *
+ * The point in the camera frame is p_cam = X · P_target with the composed
+ * pose X = T_cam_target given as a chain of pose factors,
+ *   X = F_1^{s_1} · F_2^{s_2} · … · F_k^{s_k},   s_i ∈ {+1, −1},
+ * where each F_i is a parameter block (a pose stored as R row-major + t,
+ * left perturbation, see geometry/CONVENTIONS.md) or a constant pose.
+ *
+ * Factored Jacobian (solver/problem.ts): the inner Jacobian is taken with
+ * respect to the left perturbation of X (6 columns), plus the camera's
+ * intrinsic parameters when they are free. With L_i the product of the
+ * factors left of F_i:
+ *   s_i = +1:  L F exp-perturbed → X' = exp(Ad(L_i) δ) X,          M_i =  Ad(L_i)
+ *   s_i = −1:  L F⁻¹ exp(−δ) …   → X' = exp(−Ad(L_i F_i⁻¹) δ) X,   M_i = −Ad(L_i F_i⁻¹)
+ * so each detection costs one projection and one 2x6 (or 2x(6+n)) Jacobian;
+ * the per-view maps are formed once per evaluation.
+ *
+ * Residuals are whitened: r = (project(p_cam) − uv_observed) / sigma, two
+ * per detection, grouped in pairs for the robust loss.
+ */
+import type { CameraModel } from '../camera/model.js';
+import type { ResidualBlock } from '../solver/problem.js';
+import type { LossFunction } from '../solver/loss.js';
+import { adjoint, compose, inverse, poseIdentity, type Pose } from '../geometry/se3.js';
+
+/** A pose stored as 12 numbers: R row-major (9), then t (3). */
+export function poseFromBlock(x: Float64Array, out: Pose = poseIdentity()): Pose {
+  out.R.set(x.subarray(0, 9));
+  out.t.set(x.subarray(9, 12));
+  return out;
+}
+
+export function poseToBlock(T: Pose, out: Float64Array = new Float64Array(12)): Float64Array {
+  out.set(T.R, 0);
+  out.set(T.t, 9);
+  return out;
+}
+
+export interface ChainFactor {
+  /** Index into the residual block's parameterBlocks, or -1 for a constant pose. */
+  param: number;
+  /** +1 for F, −1 for F⁻¹. */
+  sign: 1 | -1;
+  /** The constant pose when param = -1. */
+  constant?: Pose;
+}
+
+export interface ViewResidualSpec {
+  model: CameraModel;
+  /** Parameter block ids: the pose blocks of the chain, then the intrinsics block if free. */
+  parameterBlocks: number[];
+  chain: ChainFactor[];
+  /** Index into parameterBlocks of the intrinsics block, or -1 when intrinsics are constant. */
+  intrinsicsParam: number;
+  /** Constant intrinsics used when intrinsicsParam = -1. */
+  intrinsics: Float64Array;
+  /** Target points of this view, xyz interleaved (metres, target frame). */
+  points: Float64Array;
+  /** Observed pixels, uv interleaved. */
+  pixels: Float64Array;
+  /** 1/sigma per detection (px⁻¹). */
+  invSigma: Float64Array;
+  loss?: LossFunction;
+}
+
+export class ViewResidual implements ResidualBlock {
+  readonly numResiduals: number;
+  readonly parameterBlocks: readonly number[];
+  readonly innerSize: number;
+  readonly mapped = true;
+  readonly loss?: LossFunction;
+  readonly lossGroupSize = 2;
+  readonly spec: ViewResidualSpec;
+  private readonly nIntr: number;
+  private readonly X: Pose = poseIdentity();
+  private readonly L: Pose = poseIdentity();
+  private readonly F: Pose = poseIdentity();
+  private readonly tmp: Pose = poseIdentity();
+  private readonly ad = new Float64Array(36);
+  private readonly uv = new Float64Array(2);
+  private readonly pc = new Float64Array(3);
+  private readonly Jp = new Float64Array(6);
+  private readonly Ji: Float64Array;
+
+  constructor(spec: ViewResidualSpec) {
+    this.spec = spec;
+    this.numResiduals = 2 * (spec.pixels.length / 2);
+    this.parameterBlocks = spec.parameterBlocks;
+    this.nIntr = spec.intrinsicsParam >= 0 ? spec.model.numParams : 0;
+    this.innerSize = 6 + this.nIntr;
+    this.Ji = new Float64Array(2 * Math.max(1, spec.model.numParams));
+    if (spec.loss) this.loss = spec.loss;
+  }
+
+  /** Number of detections in the view. */
+  get count(): number {
+    return this.spec.pixels.length / 2;
+  }
+
+  /** Composes X = T_cam_target from the current parameter values. */
+  composePose(params: readonly Float64Array[], out: Pose): Pose {
+    const { chain } = this.spec;
+    out.R.fill(0);
+    out.R[0] = 1;
+    out.R[4] = 1;
+    out.R[8] = 1;
+    out.t.fill(0);
+    for (const f of chain) {
+      const F = f.param >= 0 ? poseFromBlock(params[f.param]!, this.F) : f.constant!;
+      if (f.sign === 1) compose(out, F, out);
+      else compose(out, inverse(F, this.tmp), out);
+    }
+    return out;
+  }
+
+  evaluate(params: readonly Float64Array[], residuals: Float64Array, jacobian: Float64Array | null, maps: Float64Array[] | null): boolean {
+    const { model, points, pixels, invSigma, chain, intrinsicsParam } = this.spec;
+    const intr = intrinsicsParam >= 0 ? params[intrinsicsParam]! : this.spec.intrinsics;
+    const X = this.composePose(params, this.X);
+    const R = X.R;
+    const t = X.t;
+    const n = points.length / 3;
+    const inner = this.innerSize;
+    const nIntr = this.nIntr;
+    const uv = this.uv;
+    const pc = this.pc;
+    const Jp = this.Jp;
+    const Ji = this.Ji;
+    for (let i = 0; i < n; i++) {
+      const Px = points[3 * i]!, Py = points[3 * i + 1]!, Pz = points[3 * i + 2]!;
+      const x = R[0]! * Px + R[1]! * Py + R[2]! * Pz + t[0]!;
+      const y = R[3]! * Px + R[4]! * Py + R[5]! * Pz + t[1]!;
+      const z = R[6]! * Px + R[7]! * Py + R[8]! * Pz + t[2]!;
+      pc[0] = x;
+      pc[1] = y;
+      pc[2] = z;
+      const w = invSigma[i]!;
+      if (jacobian === null) {
+        if (!model.project(intr, pc, uv)) return false;
+      } else {
+        if (!model.project(intr, pc, uv, Jp, nIntr > 0 ? Ji : undefined)) return false;
+        // J_uv_X = J_uv_p · [−[p]×, I]; −[p]× = [[0, z, −y], [−z, 0, x], [y, −x, 0]]
+        const o0 = 2 * i * inner;
+        const o1 = o0 + inner;
+        const a0 = Jp[0]! * w, a1 = Jp[1]! * w, a2 = Jp[2]! * w;
+        const b0 = Jp[3]! * w, b1 = Jp[4]! * w, b2 = Jp[5]! * w;
+        jacobian[o0] = -a1 * z + a2 * y;
+        jacobian[o0 + 1] = a0 * z - a2 * x;
+        jacobian[o0 + 2] = -a0 * y + a1 * x;
+        jacobian[o0 + 3] = a0;
+        jacobian[o0 + 4] = a1;
+        jacobian[o0 + 5] = a2;
+        jacobian[o1] = -b1 * z + b2 * y;
+        jacobian[o1 + 1] = b0 * z - b2 * x;
+        jacobian[o1 + 2] = -b0 * y + b1 * x;
+        jacobian[o1 + 3] = b0;
+        jacobian[o1 + 4] = b1;
+        jacobian[o1 + 5] = b2;
+        for (let k = 0; k < nIntr; k++) {
+          jacobian[o0 + 6 + k] = Ji[k]! * w;
+          jacobian[o1 + 6 + k] = Ji[nIntr + k]! * w;
+        }
+      }
+      residuals[2 * i] = (uv[0]! - pixels[2 * i]!) * w;
+      residuals[2 * i + 1] = (uv[1]! - pixels[2 * i + 1]!) * w;
+    }
+    if (jacobian !== null && maps !== null) this.fillMaps(params, maps);
+    return true;
+  }
+
+  private fillMaps(params: readonly Float64Array[], maps: Float64Array[]): void {
+    const { chain, intrinsicsParam, parameterBlocks } = this.spec;
+    const inner = this.innerSize;
+    const L = this.L;
+    L.R.fill(0);
+    L.R[0] = 1;
+    L.R[4] = 1;
+    L.R[8] = 1;
+    L.t.fill(0);
+    for (const f of chain) {
+      const F = f.param >= 0 ? poseFromBlock(params[f.param]!, this.F) : f.constant!;
+      if (f.sign === 1) {
+        if (f.param >= 0) writeMap(maps[f.param]!, adjoint(L, this.ad), 1, inner);
+        compose(L, F, L);
+      } else {
+        compose(L, inverse(F, this.tmp), L);
+        if (f.param >= 0) writeMap(maps[f.param]!, adjoint(L, this.ad), -1, inner);
+      }
+    }
+    if (intrinsicsParam >= 0) {
+      const M = maps[intrinsicsParam]!;
+      const n = this.nIntr;
+      M.fill(0);
+      for (let k = 0; k < n; k++) M[(6 + k) * n + k] = 1;
+    }
+    void parameterBlocks;
+  }
+}
+
+/** Writes sign·Ad (6x6) into the top 6 rows of an inner x 6 map; rows below are zero. */
+function writeMap(M: Float64Array, ad: Float64Array, sign: number, inner: number): void {
+  M.fill(0, 0, inner * 6);
+  for (let i = 0; i < 36; i++) M[i] = sign * ad[i]!;
+}
