@@ -1,0 +1,295 @@
+/**
+ * Initialisation over the view graph.
+ *
+ * 1. PnP per view with the camera's current intrinsics; the fit is trimmed
+ *    once (points beyond max(5 × median residual, 2 px) are dropped and PnP
+ *    re-run) so that a few gross detections do not spoil the pose. Views with
+ *    fewer than MIN_VIEW_POINTS points, failed PnP, fewer than half their
+ *    points kept, or an inlier RMS above max(5 × the median view RMS, 3 px)
+ *    are set aside.
+ * 2. Relative poses T_ci_cj = T_ci_target · T_cj_target⁻¹ from every frame in
+ *    which two cameras see the same target, averaged robustly per camera pair.
+ *    Edge support = number of agreeing frames.
+ * 3. A maximum spanning tree from the reference camera over the support
+ *    (Prim), so that every camera is reached along its best-supported path;
+ *    cameras that never share a frame with the reference are chained through
+ *    others. Disconnected groups are a RigSolveError naming the groups.
+ * 4. Frame (or target) poses from the views, with whole views that contradict
+ *    the other cameras of their frame set aside (180° flips, bad detections).
+ */
+import type { CameraModel } from '../camera/model.js';
+import { compose, inverse, type Pose } from '../geometry/se3.js';
+import { so3Log } from '../geometry/so3.js';
+import { mat3Mul, mat3Transpose } from '../linalg/small.js';
+import type { Session } from '../io/types.js';
+import { solvePnP } from '../pnp/index.js';
+import { averagePosesRobust } from './average.js';
+import { viewData, type View } from './views.js';
+
+export const MIN_VIEW_POINTS = 6;
+
+export interface PnpOutcome {
+  used: number;
+  setAside: number;
+  medianRmsPx: number;
+}
+
+function median(values: number[]): number {
+  if (values.length === 0) return NaN;
+  const s = [...values].sort((a, b) => a - b);
+  const m = s.length >> 1;
+  return s.length % 2 ? s[m]! : 0.5 * (s[m - 1]! + s[m]!);
+}
+
+/** Rotation angle between two rotations, radians. */
+export function rotationAngle(R1: ArrayLike<number>, R2: ArrayLike<number>): number {
+  const Rt = mat3Transpose(new Float64Array(9), R1);
+  const d = so3Log(mat3Mul(new Float64Array(9), Rt, R2));
+  return Math.hypot(d[0]!, d[1]!, d[2]!);
+}
+
+/** Step 1: PnP per view. `models[c]` and `params[c]` are the cameras' current intrinsics. */
+export function initialiseViewPoses(session: Session, views: View[], models: CameraModel[], params: Float64Array[]): PnpOutcome {
+  const rmsList: number[] = [];
+  for (const view of views) {
+    if (view.status !== 'used') continue;
+    const camName = session.cameras[view.camera]!.name;
+    if (view.rows.length < MIN_VIEW_POINTS) {
+      view.status = 'too_few_points';
+      view.reason = `${view.rows.length} points (at least ${MIN_VIEW_POINTS} needed)`;
+      continue;
+    }
+    const model = models[view.camera]!;
+    const intr = params[view.camera]!;
+    try {
+      const { points, pixels } = viewData(session, view);
+      let fit = solvePnP(model, intr, points, pixels);
+      const res = fit.residualsPx;
+      const thr = Math.max(5 * median(Array.from(res)), 2);
+      const keep: number[] = [];
+      for (let k = 0; k < res.length; k++) if (res[k]! <= thr) keep.push(view.rows[k]!);
+      if (keep.length < Math.max(MIN_VIEW_POINTS, Math.ceil(0.5 * view.rows.length))) {
+        view.status = 'too_many_outliers';
+        view.reason = `only ${keep.length} of ${view.rows.length} points agree with the PnP pose`;
+        continue;
+      }
+      if (keep.length < view.rows.length) {
+        const sub = viewData(session, view, keep);
+        fit = solvePnP(model, intr, sub.points, sub.pixels);
+      }
+      view.T_cam_target = fit.T_cam_target;
+      view.pnpRmsPx = fit.rmsPx;
+      rmsList.push(fit.rmsPx);
+    } catch (e) {
+      view.status = 'pnp_failed';
+      view.reason = `PnP failed for camera ${camName}: ${(e as Error).message}`;
+    }
+  }
+  const med = median(rmsList);
+  const limit = Math.max(5 * med, 3);
+  let used = 0;
+  let setAside = 0;
+  for (const view of views) {
+    if (view.status === 'used' && view.pnpRmsPx! > limit) {
+      view.status = 'pnp_outlier';
+      view.reason = `PnP RMS ${view.pnpRmsPx!.toFixed(2)} px is far above the median ${med.toFixed(2)} px`;
+    }
+    if (view.status === 'used') used++;
+    else setAside++;
+  }
+  return { used, setAside, medianRmsPx: med };
+}
+
+export interface GraphEdge {
+  a: number;
+  b: number;
+  /** T_a_b averaged over the agreeing frames. */
+  T_a_b: Pose;
+  /** Number of frames agreeing with the average. */
+  support: number;
+  /** Number of frames in total. */
+  samples: number;
+}
+
+/** Key of a (frame, target) pair, for grouping views captured together. */
+export function frameTargetKey(view: View, numTargets: number): number {
+  return view.frame * numTargets + view.target;
+}
+
+/** Groups used views by (frame, target). */
+export function groupByFrameTarget(views: View[], numTargets: number): Map<number, View[]> {
+  const groups = new Map<number, View[]>();
+  for (const v of views) {
+    if (v.status !== 'used') continue;
+    const k = frameTargetKey(v, numTargets);
+    let g = groups.get(k);
+    if (!g) groups.set(k, (g = []));
+    g.push(v);
+  }
+  return groups;
+}
+
+/** Step 2: relative camera poses per camera pair from co-visible frames. */
+export function buildViewGraph(views: View[], numCameras: number, numTargets: number): GraphEdge[] {
+  const samples = new Map<number, Pose[]>();
+  for (const group of groupByFrameTarget(views, numTargets).values()) {
+    for (let i = 0; i < group.length; i++) {
+      for (let j = 0; j < group.length; j++) {
+        const va = group[i]!;
+        const vb = group[j]!;
+        if (va.camera >= vb.camera) continue;
+        const T_a_b = compose(va.T_cam_target!, inverse(vb.T_cam_target!));
+        const key = va.camera * numCameras + vb.camera;
+        let list = samples.get(key);
+        if (!list) samples.set(key, (list = []));
+        list.push(T_a_b);
+      }
+    }
+  }
+  const edges: GraphEdge[] = [];
+  for (const [key, list] of samples) {
+    const a = Math.floor(key / numCameras);
+    const b = key % numCameras;
+    const avg = averagePosesRobust(list);
+    edges.push({ a, b, T_a_b: avg.pose, support: avg.inliers, samples: list.length });
+  }
+  return edges;
+}
+
+export interface SpanningTree {
+  /** T_ref_cam per camera, or null when the camera is not connected to the reference. */
+  T_ref_cam: (Pose | null)[];
+  /** Parent camera in the tree (-1 for the reference and unconnected cameras). */
+  parent: number[];
+  /** Support of the edge to the parent. */
+  support: number[];
+  /** Connected groups of camera indices (the first contains the reference). */
+  groups: number[][];
+}
+
+/** Step 3: maximum spanning tree by support, from the reference camera (Prim). */
+export function spanningTree(edges: GraphEdge[], numCameras: number, reference: number, T_ref_ref: Pose): SpanningTree {
+  const T: (Pose | null)[] = new Array(numCameras).fill(null);
+  const parent = new Array<number>(numCameras).fill(-1);
+  const support = new Array<number>(numCameras).fill(0);
+  T[reference] = T_ref_ref;
+  const inTree = new Array<boolean>(numCameras).fill(false);
+  inTree[reference] = true;
+  for (;;) {
+    let best: GraphEdge | undefined;
+    let bestFrom = -1;
+    for (const e of edges) {
+      if (e.support <= 0) continue;
+      if (inTree[e.a] === inTree[e.b]) continue;
+      if (!best || e.support > best.support) {
+        best = e;
+        bestFrom = inTree[e.a] ? e.a : e.b;
+      }
+    }
+    if (!best) break;
+    const to = bestFrom === best.a ? best.b : best.a;
+    // T_ref_to = T_ref_from · T_from_to
+    const T_from_to = bestFrom === best.a ? best.T_a_b : inverse(best.T_a_b);
+    T[to] = compose(T[bestFrom]!, T_from_to);
+    parent[to] = bestFrom;
+    support[to] = best.support;
+    inTree[to] = true;
+  }
+  // Connected components (undirected, any positive-support edge).
+  const comp = new Array<number>(numCameras).fill(-1);
+  const groups: number[][] = [];
+  const order = [reference, ...Array.from({ length: numCameras }, (_, i) => i).filter((i) => i !== reference)];
+  for (const s of order) {
+    if (comp[s] !== -1) continue;
+    const g: number[] = [];
+    const stack = [s];
+    comp[s] = groups.length;
+    while (stack.length) {
+      const c = stack.pop()!;
+      g.push(c);
+      for (const e of edges) {
+        if (e.support <= 0) continue;
+        const o = e.a === c ? e.b : e.b === c ? e.a : -1;
+        if (o >= 0 && comp[o] === -1) {
+          comp[o] = groups.length;
+          stack.push(o);
+        }
+      }
+    }
+    groups.push(g.sort((a, b) => a - b));
+  }
+  return { T_ref_cam: T, parent, support, groups };
+}
+
+export interface FramePoseInit {
+  /** Key → T_ref_target for every (frame, target) group with a consistent pose. */
+  poses: Map<number, Pose>;
+  /** Views set aside because they contradict the others in their frame. */
+  inconsistent: View[];
+}
+
+/** Thresholds for "contradicts the other cameras of its frame". */
+export const CONSISTENCY_ROTATION_RAD = (5 * Math.PI) / 180;
+/** Relative to the target's distance from the reference camera. */
+export const CONSISTENCY_TRANSLATION_FRACTION = 0.05;
+
+/**
+ * Step 4: T_ref_target per (frame, target) from its views, given camera
+ * extrinsics. With two or more views, the largest set of mutually agreeing
+ * views wins; a view outside it is set aside as inconsistent. When no two
+ * views agree (e.g. two cameras, one with a flipped board), all views of
+ * the group are set aside: with two views nothing says which one is wrong.
+ */
+export function initialiseFramePoses(views: View[], numTargets: number, T_ref_cam: (Pose | null)[], cameraNames: string[]): FramePoseInit {
+  const poses = new Map<number, Pose>();
+  const inconsistent: View[] = [];
+  for (const [key, group] of groupByFrameTarget(views, numTargets)) {
+    const candidates = group.map((v) => compose(T_ref_cam[v.camera]!, v.T_cam_target!));
+    if (group.length === 1) {
+      poses.set(key, candidates[0]!);
+      continue;
+    }
+    const agree = (i: number, j: number): boolean => {
+      const a = candidates[i]!;
+      const b = candidates[j]!;
+      const dist = Math.max(Math.hypot(a.t[0]!, a.t[1]!, a.t[2]!), Math.hypot(b.t[0]!, b.t[1]!, b.t[2]!), 0.1);
+      const dt = Math.hypot(a.t[0]! - b.t[0]!, a.t[1]! - b.t[1]!, a.t[2]! - b.t[2]!);
+      return rotationAngle(a.R, b.R) < CONSISTENCY_ROTATION_RAD && dt < CONSISTENCY_TRANSLATION_FRACTION * dist;
+    };
+    let bestSet: number[] = [];
+    for (let i = 0; i < group.length; i++) {
+      const set = [i];
+      for (let j = 0; j < group.length; j++) if (j !== i && agree(i, j)) set.push(j);
+      if (set.length > bestSet.length) bestSet = set;
+    }
+    // Ties between different sets of the same size leave nothing to trust.
+    let tie = false;
+    for (let i = 0; i < group.length && !tie; i++) {
+      if (bestSet.includes(i)) continue;
+      let n = 1;
+      for (let j = 0; j < group.length; j++) if (j !== i && agree(i, j)) n++;
+      if (n >= bestSet.length) tie = true;
+    }
+    if (bestSet.length < 2 || tie) {
+      for (const v of group) {
+        v.status = 'inconsistent';
+        v.reason = `the ${group.length} cameras that saw this target in this frame (${group
+          .map((g) => cameraNames[g.camera])
+          .join(', ')}) disagree on its pose (a flipped or mislabelled detection?)`;
+        inconsistent.push(v);
+      }
+      continue;
+    }
+    for (let i = 0; i < group.length; i++) {
+      if (bestSet.includes(i)) continue;
+      const v = group[i]!;
+      v.status = 'inconsistent';
+      v.reason = `its target pose contradicts the other cameras in this frame (${bestSet
+        .map((k) => cameraNames[group[k]!.camera])
+        .join(', ')}) by more than 5° or 5 % of the distance (a board detected rotated by 180°?)`;
+      inconsistent.push(v);
+    }
+    poses.set(key, averagePosesRobust(bestSet.map((k) => candidates[k]!)).pose);
+  }
+  return { poses, inconsistent };
+}
