@@ -22,8 +22,10 @@ export function so3Exp(omega: ArrayLike<number>, out: Mat3 = new Float64Array(9)
     b = 0.5 - th2 / 24;
   } else {
     const th = Math.sqrt(th2);
+    const sh = Math.sin(0.5 * th);
     a = Math.sin(th) / th;
-    b = (1 - Math.cos(th)) / th2;
+    // 1 − cos θ = 2 sin²(θ/2), without the cancellation of 1 − cos θ at small θ.
+    b = (2 * sh * sh) / th2;
   }
   // [ω]×² = ωωᵀ − θ² I
   out[0] = 1 + b * (x * x - th2);
@@ -119,7 +121,8 @@ export function so3LeftJacobian(omega: ArrayLike<number>, out: Mat3 = new Float6
     b = 1 / 6 - th2 / 120;
   } else {
     const th = Math.sqrt(th2);
-    a = (1 - Math.cos(th)) / th2;
+    const sh = Math.sin(0.5 * th);
+    a = (2 * sh * sh) / th2;
     b = (th - Math.sin(th)) / (th2 * th);
   }
   out[0] = 1 + b * (x * x - th2);
@@ -134,16 +137,21 @@ export function so3LeftJacobian(omega: ArrayLike<number>, out: Mat3 = new Float6
   return out;
 }
 
-/** Inverse of the left Jacobian: J_l⁻¹(ω) = I − ½[ω]× + (1/θ² − (1 + cos θ)/(2θ sin θ))[ω]×². */
+/**
+ * Inverse of the left Jacobian: J_l⁻¹(ω) = I − ½[ω]× + (1/θ² − (1 + cos θ)/(2θ sin θ))[ω]×²,
+ * with (1 + cos θ)/sin θ = cot(θ/2), which stays finite at θ = π (where sin θ → 0).
+ * Taylor branch for θ < 1e-2: 1/12 + θ²/720 + θ⁴/30240 (the closed form loses ~1e-7
+ * relative there to cancellation between 1/θ² and cot(θ/2)/(2θ)).
+ */
 export function so3LeftJacobianInverse(omega: ArrayLike<number>, out: Mat3 = new Float64Array(9)): Mat3 {
   const x = omega[0]!, y = omega[1]!, z = omega[2]!;
   const th2 = x * x + y * y + z * z;
   let c: number;
-  if (th2 < SMALL_ANGLE * SMALL_ANGLE) {
-    c = 1 / 12 + th2 / 720;
+  if (th2 < 1e-4) {
+    c = 1 / 12 + th2 / 720 + (th2 * th2) / 30240;
   } else {
     const th = Math.sqrt(th2);
-    c = 1 / th2 - (1 + Math.cos(th)) / (2 * th * Math.sin(th));
+    c = 1 / th2 - 1 / (2 * th * Math.tan(0.5 * th));
   }
   const a = -0.5;
   out[0] = 1 + c * (x * x - th2);
