@@ -166,6 +166,32 @@ export function so3LeftJacobianInverse(omega: ArrayLike<number>, out: Mat3 = new
   return out;
 }
 
+/**
+ * q = R p. J_q_R (3x3, left perturbation R ← exp(δ)R): −[q]×. J_q_p (3x3): R.
+ */
+export function so3Act(R: ArrayLike<number>, p: ArrayLike<number>, out: Vec3 = new Float64Array(3), J_q_R?: Float64Array, J_q_p?: Float64Array): Vec3 {
+  const x = p[0]!, y = p[1]!, z = p[2]!;
+  const qx = R[0]! * x + R[1]! * y + R[2]! * z;
+  const qy = R[3]! * x + R[4]! * y + R[5]! * z;
+  const qz = R[6]! * x + R[7]! * y + R[8]! * z;
+  out[0] = qx;
+  out[1] = qy;
+  out[2] = qz;
+  if (J_q_R) {
+    J_q_R[0] = 0; J_q_R[1] = qz; J_q_R[2] = -qy;
+    J_q_R[3] = -qz; J_q_R[4] = 0; J_q_R[5] = qx;
+    J_q_R[6] = qy; J_q_R[7] = -qx; J_q_R[8] = 0;
+  }
+  if (J_q_p) for (let i = 0; i < 9; i++) J_q_p[i] = R[i]!;
+  return out;
+}
+
+/** The rotation angle |log(R)| in [0, π], radians. */
+export function so3Angle(R: ArrayLike<number>): number {
+  const w = so3Log(R);
+  return Math.sqrt(w[0]! * w[0]! + w[1]! * w[1]! + w[2]! * w[2]!);
+}
+
 /** The nearest rotation (Frobenius norm) to an arbitrary 3x3 matrix, via SVD: U diag(1,1,det(UVᵀ)) Vᵀ. */
 export { nearestRotation } from './nearest-rotation.js';
 
