@@ -186,6 +186,14 @@ export function so3Act(R: ArrayLike<number>, p: ArrayLike<number>, out: Vec3 = n
   return out;
 }
 
+/** vee: the vector w of a skew-symmetric matrix [w]× (row-major), w = (M21, M02, M10). */
+export function so3Vee(M: ArrayLike<number>, out: Vec3 = new Float64Array(3)): Vec3 {
+  out[0] = M[7]!;
+  out[1] = M[2]!;
+  out[2] = M[3]!;
+  return out;
+}
+
 /** The rotation angle |log(R)| in [0, π], radians. */
 export function so3Angle(R: ArrayLike<number>): number {
   const w = so3Log(R);
