@@ -83,6 +83,20 @@ describe('rotation averaging', () => {
     expectMatrixClose(r.R, so3Exp([0, 0, sorted[3]!]), { abs: 1e-9 }, 'median rotation');
   });
 
+  it('weighted 1-D case whose L1 minimiser is a sample away from the seed: reached and reported converged', () => {
+    // Weights 2.5, 1, 1, 1 at angles 0, 0.1, 0.15, 0.6 about x: the cost's slope is 2.5 − 3 < 0 left of 0.1
+    // and 2.5 + 1 − 2 > 0 right of it, so the minimiser is the sample at 0.1, where a plain Weiszfeld
+    // step (pulled by the unbalanced others) would leave it.
+    const r = robustMeanRotation(
+      [0, 0.1, 0.15, 0.6].map((a) => so3Exp([a, 0, 0])),
+      { weights: [2.5, 1, 1, 1], refineOnInliers: false },
+    );
+    expect(r.converged).toBe(true);
+    // The medoid seed is that sample; the vertex test recognises it at once instead of stepping away and creeping back.
+    expect(r.iterations).toBe(1);
+    expectMatrixClose(r.R, so3Exp([0.1, 0, 0]), { abs: 1e-12 }, 'weighted median rotation');
+  });
+
   it('weights: a weight of 2 equals a duplicated sample; zero weights remove samples', () => {
     const s = scene.samples.slice(0, 10);
     const w = Float64Array.from(s, (_, i) => (i === 3 ? 2 : 1));
@@ -149,6 +163,16 @@ describe('translation averaging', () => {
       expect(Math.abs(c - Math.cos((2 * Math.PI) / 3))).toBeLessThan(1e-6);
     }
     expect(gm.t[2]).toBeCloseTo(1, 12);
+  });
+
+  it('weighted points whose minimiser is a sample away from the seed: reached exactly and reported converged', () => {
+    // Three unit points 120° apart around a centre sample of weight 0.5: their unit directions sum to 0 ≤ 0.5,
+    // so the centre is the minimiser; the component-wise weighted median seed is (cos 250°, sin 10°), elsewhere.
+    const pts = [[0, 0, 0], ...[10, 130, 250].map((d) => [Math.cos(d * (Math.PI / 180)), Math.sin(d * (Math.PI / 180)), 0])];
+    const g = geometricMedian(pts, [0.5, 1, 1, 1]);
+    expect(g.converged).toBe(true);
+    expect(g.iterations).toBeGreaterThan(1);
+    expectMatrixClose(g.t, [0, 0, 0], { abs: 1e-12 }, 'weighted median');
   });
 
   it('collinear points: the geometric median is the 1-D median', () => {

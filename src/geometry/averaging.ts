@@ -125,6 +125,36 @@ function medoidRotation(rotations: readonly ArrayLike<number>[], w: Float64Array
   return Float64Array.from(rotations[best]!);
 }
 
+/** A residual shorter than this (radians) means the iterate sits on that sample. */
+const VERTEX_EPS_RAD = 1e-12;
+
+/**
+ * Vertex test of the Weiszfeld iteration: when the iterate coincides with
+ * sample i (|r_i| < eps), it is the L1 minimiser iff |Σ_{j≠i} w_j r_j/|r_j|| ≤ w_i
+ * (the subgradient of w_i|r_i| covers the rest). Plain Weiszfeld steps cannot
+ * detect this and creep towards such a minimiser only slowly. r is n x 3 row-major.
+ */
+function atOptimalVertex(r: Float64Array, norms: Float64Array, w: Float64Array, eps: number): boolean {
+  const n = norms.length;
+  for (let i = 0; i < n; i++) {
+    if (!(norms[i]! < eps) || w[i] === 0) continue;
+    let gx = 0, gy = 0, gz = 0;
+    let wAt = 0;
+    for (let j = 0; j < n; j++) {
+      if (norms[j]! < eps) {
+        wAt += w[j]!;
+        continue;
+      }
+      const k = w[j]! / norms[j]!;
+      gx += k * r[3 * j]!;
+      gy += k * r[3 * j + 1]!;
+      gz += k * r[3 * j + 2]!;
+    }
+    return Math.hypot(gx, gy, gz) <= wAt;
+  }
+  return false;
+}
+
 /**
  * Iteratively reweighted geodesic mean: R ← exp(Σ ω_i v_i / Σ ω_i)·R with
  * ω_i = w_i·ψ(|v_i|). Returns iterations used and whether the step fell below tol.
@@ -136,6 +166,7 @@ function irlsRotation(
   psi: (r: number) => number,
   maxIterations: number,
   tol: number,
+  l1 = false,
 ): { iterations: number; converged: boolean } {
   const n = rotations.length;
   const v = new Float64Array(3 * n);
@@ -144,6 +175,7 @@ function irlsRotation(
   const E = new Float64Array(9);
   for (let it = 1; it <= maxIterations; it++) {
     rotationResiduals(rotations, R, v, norms);
+    if (l1 && atOptimalVertex(v, norms, w, VERTEX_EPS_RAD)) return { iterations: it, converged: true };
     step.fill(0);
     let den = 0;
     for (let i = 0; i < n; i++) {
@@ -171,7 +203,9 @@ function irlsRotation(
  * 'l1' minimises Σ w_i |log(R_i·Rᵀ)| by the Weiszfeld iteration on SO(3)
  * (R. Hartley, K. Aftab, J. Trumpf, "L1 rotation averaging using the Weiszfeld
  * algorithm", CVPR 2011): weights w_i/|v_i|, samples with |v_i| < 1e-12 are
- * skipped in that step (the standard guard against division by zero).
+ * skipped in that step (the standard guard against division by zero), and
+ * an iterate sitting on a sample stops there when that sample satisfies the
+ * L1 optimality (subgradient) condition.
  * 'huber' uses weights w_i·min(1, k/|v_i|).
  * Both start from the medoid sample. With refineOnInliers (default) the result is
  * then the weighted geodesic L2 (Karcher) mean of the samples within thresholdRad.
@@ -183,11 +217,12 @@ export function robustMeanRotation(rotations: readonly ArrayLike<number>[], opti
   const tol = options.toleranceRad ?? 1e-12;
   const k = options.huberScaleRad ?? 0.01;
   const psi =
-    (options.method ?? 'l1') === 'l1'
+    options.method !== 'huber'
       ? (r: number) => (r < 1e-12 ? 0 : 1 / r)
       : (r: number) => (r <= k ? 1 : k / r);
+  const l1 = (options.method ?? 'l1') === 'l1';
   const R = medoidRotation(rotations, w);
-  const robust = irlsRotation(rotations, w, R, psi, maxIt, tol);
+  const robust = irlsRotation(rotations, w, R, psi, maxIt, tol, l1);
   const n = rotations.length;
   const v = new Float64Array(3 * n);
   const norms = new Float64Array(n);
@@ -232,17 +267,25 @@ export interface TranslationAverage {
   converged: boolean;
 }
 
-function median(values: number[]): number {
-  const s = values.slice().sort((a, b) => a - b);
-  const m = s.length >> 1;
-  return s.length % 2 ? s[m]! : 0.5 * (s[m - 1]! + s[m]!);
+/** Weighted median: the smallest value whose cumulative weight reaches half the total (weights > 0). */
+function weightedMedian(values: number[], weights: number[]): number {
+  const idx = values.map((_, i) => i).sort((a, b) => values[a]! - values[b]!);
+  const total = weights.reduce((a, b) => a + b, 0);
+  let acc = 0;
+  for (const i of idx) {
+    acc += weights[i]!;
+    if (acc >= 0.5 * total) return values[i]!;
+  }
+  return values[idx[idx.length - 1]!]!;
 }
 
 /**
  * Weighted geometric median argmin_t Σ w_i |t_i − t| by the Weiszfeld
  * iteration t ← Σ (w_i/|t_i − t|) t_i / Σ (w_i/|t_i − t|), started from the
- * component-wise median. A sample that coincides with the iterate (distance
- * < 1e-15) is skipped in that step.
+ * component-wise weighted median. A sample that coincides with the iterate
+ * (distance < 1e-14 of the coordinates' scale) is skipped in that step, and the
+ * iteration stops on it when it satisfies the L1 optimality condition
+ * |Σ_{j≠i} w_j (t_j − t)/|t_j − t|| ≤ w_i.
  */
 export function geometricMedian(
   points: readonly ArrayLike<number>[],
@@ -254,16 +297,35 @@ export function geometricMedian(
   const t = new Float64Array(3);
   for (let c = 0; c < 3; c++) {
     const vals: number[] = [];
-    for (let i = 0; i < points.length; i++) if (w[i]! > 0) vals.push(points[i]![c]!);
-    t[c] = median(vals);
+    const ws: number[] = [];
+    for (let i = 0; i < points.length; i++) {
+      if (w[i]! > 0) {
+        vals.push(points[i]![c]!);
+        ws.push(w[i]!);
+      }
+    }
+    t[c] = weightedMedian(vals, ws);
   }
+  let scale = 0;
+  for (const p of points) scale = Math.max(scale, Math.abs(p[0]!), Math.abs(p[1]!), Math.abs(p[2]!));
+  const eps = 1e-14 * Math.max(scale, 1);
+  const r = new Float64Array(3 * points.length);
+  const norms = new Float64Array(points.length);
   for (let it = 1; it <= maxIterations; it++) {
+    for (let i = 0; i < points.length; i++) {
+      const p = points[i]!;
+      r[3 * i] = p[0]! - t[0]!;
+      r[3 * i + 1] = p[1]! - t[1]!;
+      r[3 * i + 2] = p[2]! - t[2]!;
+      norms[i] = Math.hypot(r[3 * i]!, r[3 * i + 1]!, r[3 * i + 2]!);
+    }
+    if (atOptimalVertex(r, norms, w, eps)) return { t, iterations: it, converged: true };
     let den = 0;
     const num = [0, 0, 0];
     for (let i = 0; i < points.length; i++) {
       const p = points[i]!;
-      const d = Math.hypot(p[0]! - t[0]!, p[1]! - t[1]!, p[2]! - t[2]!);
-      if (d < 1e-15 || w[i] === 0) continue;
+      const d = norms[i]!;
+      if (d < eps || w[i] === 0) continue;
       const wi = w[i]! / d;
       num[0]! += wi * p[0]!;
       num[1]! += wi * p[1]!;
