@@ -83,6 +83,12 @@ describe('quaternions against three', () => {
     }
   });
 
+  it('rotations by π (w = 0) get one stored quaternion: first non-zero of x, y, z positive', () => {
+    expectMatrixClose(matrixToQuat([1, 0, 0, 0, -1, 0, 0, 0, -1]), [0, 1, 0, 0], { abs: 1e-16 }, 'π about x');
+    expectMatrixClose(quatNormalize(Float64Array.from([0, 0, -0.6, 0.8])), [0, 0, 0.6, -0.8], { abs: 1e-16 }, 'sign');
+    expect(() => quatNormalize(new Float64Array(4))).toThrow(RangeError);
+  });
+
   it('quatMul matches Quaternion.multiply and R(a⊗b) = R(a)·R(b)', () => {
     const u = rng(5);
     for (let k = 0; k < 50; k++) {
@@ -202,6 +208,19 @@ describe('round trips (fast-check)', () => {
     const dy = Math.atan2(Math.sin(rpy[2]! - expectedYaw), Math.cos(rpy[2]! - expectedYaw));
     expect(Math.abs(dy)).toBeLessThan(1e-12);
     expectMatrixClose(rpyToMatrix(rpy[0]!, rpy[1]!, rpy[2]!), R, { abs: 1e-14 }, 'R');
+  });
+
+  it('gimbal lock (fast-check): pitch = ±π/2 with any roll and yaw gives roll 0 and reproduces the matrix', () => {
+    const ang = fc.double({ min: -Math.PI, max: Math.PI, noNaN: true });
+    fc.assert(
+      fc.property(ang, fc.constantFrom(Math.PI / 2, -Math.PI / 2), ang, (r, p, y) => {
+        const R = rpyToMatrix(r, p, y);
+        const rpy = matrixToRpy(R);
+        expect(rpy[0]).toBe(0);
+        expectMatrixClose(rpyToMatrix(rpy[0]!, rpy[1]!, rpy[2]!), R, { abs: 1e-14 }, 'R');
+      }),
+      { numRuns: 300 },
+    );
   });
 
   it('near gimbal lock (cos pitch just above the threshold) the matrix is still reproduced', () => {

@@ -15,11 +15,16 @@ const QUAT_SMALL = 1e-6;
 /** cos(pitch) below this is treated as gimbal lock in matrixToRpy. */
 export const GIMBAL_LOCK_COS_PITCH = 1e-10;
 
-/** Rescales q to unit norm and flips its sign so that w ≥ 0 (in place). Throws RangeError for a zero quaternion. */
+/**
+ * Rescales q to unit norm and flips its sign so that w ≥ 0 (in place). When w is
+ * exactly 0 (a rotation by π) the first non-zero of x, y, z is made positive, so
+ * every rotation has one stored quaternion. Throws RangeError for a zero quaternion.
+ */
 export function quatNormalize(q: Float64Array): QuatWxyz {
   const n = Math.hypot(q[0]!, q[1]!, q[2]!, q[3]!);
   if (!(n > 0) || !Number.isFinite(n)) throw new RangeError(`quaternion [${Array.from(q).join(', ')}] cannot be normalised`);
-  const s = q[0]! < 0 ? -1 / n : 1 / n;
+  const lead = q[0] !== 0 ? q[0]! : q[1] !== 0 ? q[1]! : q[2] !== 0 ? q[2]! : q[3]!;
+  const s = lead < 0 ? -1 / n : 1 / n;
   q[0]! *= s;
   q[1]! *= s;
   q[2]! *= s;

@@ -17,6 +17,7 @@ import {
   se3Log,
   type Pose,
 } from './se3.js';
+import type { Manifold } from '../solver/problem.js';
 import { so3Exp, so3LeftJacobian } from './so3.js';
 
 const flat = (T: Pose) => poseToArray12(T);
@@ -114,7 +115,10 @@ describe('SE(3) details', () => {
     const T = { R: so3Exp([1, -0.5, 0.25]), t: Float64Array.from([0.1, 0.2, 0.3]) };
     const d = Float64Array.from([0.01, 0.02, -0.03, 0.4, -0.5, 0.6]);
     const x = poseToArray12(T);
-    se3LeftManifold.plus(x, d, x);
+    // Compile-time check that the object fits the solver's Manifold interface.
+    const m: Manifold = se3LeftManifold;
+    expect([m.ambientSize, m.tangentSize]).toEqual([12, 6]);
+    m.plus(x, d, x);
     expectMatrixClose(x, flat(boxPlus(T, d)), { abs: 1e-15 }, 'plus');
     expect(() => poseFromArray12([1, 2, 3])).toThrow(RangeError);
   });
