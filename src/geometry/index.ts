@@ -1,3 +1,4 @@
 export * from './so3.js';
 export * from './se3.js';
-export * from "./pose-manifold.js";
+export * from './rotation.js';
+export * from './averaging.js';

@@ -35,8 +35,17 @@ export function poseFrom(R: ArrayLike<number>, t: ArrayLike<number>): Pose {
   return { R: Float64Array.from(R), t: Float64Array.from(t) };
 }
 
-/** T_a_c = T_a_b · T_b_c. */
-export function compose(T_a_b: Pose, T_b_c: Pose, out: Pose = poseIdentity()): Pose {
+/**
+ * T_a_c = T_a_b · T_b_c. out may alias either input.
+ * J_Tac_Tab (6x6, left perturbation of T_a_b): I.
+ * J_Tac_Tbc (6x6, left perturbation of T_b_c): Ad(T_a_b).
+ */
+export function compose(T_a_b: Pose, T_b_c: Pose, out: Pose = poseIdentity(), J_Tac_Tab?: Float64Array, J_Tac_Tbc?: Float64Array): Pose {
+  if (J_Tac_Tab) {
+    J_Tac_Tab.fill(0);
+    for (let i = 0; i < 6; i++) J_Tac_Tab[i * 7] = 1;
+  }
+  if (J_Tac_Tbc) adjoint(T_a_b, J_Tac_Tbc);
   const t = new Float64Array(3);
   mat3MulVec(t, T_a_b.R, T_b_c.t);
   t[0]! += T_a_b.t[0]!;
@@ -47,14 +56,21 @@ export function compose(T_a_b: Pose, T_b_c: Pose, out: Pose = poseIdentity()): P
   return out;
 }
 
-/** T_b_a = T_a_b⁻¹ = (Rᵀ, −Rᵀ t). */
-export function inverse(T_a_b: Pose, out: Pose = poseIdentity()): Pose {
+/**
+ * T_b_a = T_a_b⁻¹ = (Rᵀ, −Rᵀ t). out may alias the input.
+ * J_Tba_Tab (6x6, left perturbations of both): −Ad(T_a_b⁻¹).
+ */
+export function inverse(T_a_b: Pose, out: Pose = poseIdentity(), J_Tba_Tab?: Float64Array): Pose {
   const t = new Float64Array(3);
   mat3TransposeMulVec(t, T_a_b.R, T_a_b.t);
   mat3Transpose(out.R, T_a_b.R);
   out.t[0] = -t[0]!;
   out.t[1] = -t[1]!;
   out.t[2] = -t[2]!;
+  if (J_Tba_Tab) {
+    adjoint(out, J_Tba_Tab);
+    for (let i = 0; i < 36; i++) J_Tba_Tab[i] = -J_Tba_Tab[i]!;
+  }
   return out;
 }
 
@@ -105,10 +121,8 @@ export function se3Log(T: Pose, out: Float64Array = new Float64Array(6)): Float6
 }
 
 /**
- * Left update T ← exp(δ)·T. Uses the simple retraction R ← exp(ω)R,
- * t ← exp(ω)t + ρ', which is the exact group exponential composed on the
- * left when ρ' = J_l(ω)ρ; we use the exact form so that boxplus and
- * boxminus are consistent.
+ * Left update T ⊞ δ = exp(δ)·T with the exact group exponential, so that
+ * boxMinus(boxPlus(T, δ), T) = δ for |ω| < π.
  */
 export function boxPlus(T: Pose, delta: ArrayLike<number>, out: Pose = poseIdentity()): Pose {
   return compose(se3Exp(delta), T, out);
@@ -142,5 +156,34 @@ export function adjoint(T: Pose, out: Float64Array = new Float64Array(36)): Floa
     out[4 * 6 + j] = tz * r0 - tx * r2;
     out[5 * 6 + j] = -ty * r0 + tx * r1;
   }
+  return out;
+}
+
+/**
+ * A pose stored as 12 numbers [R row-major (9), t (3)] with the left update
+ * x ⊞ δ = exp(δ)·x. Structurally matches the solver's Manifold interface.
+ */
+export const se3LeftManifold = {
+  ambientSize: 12,
+  tangentSize: 6,
+  plus(x: Float64Array, delta: Float64Array, out: Float64Array): void {
+    const T = poseFromArray12(x);
+    const r = boxPlus(T, delta);
+    out.set(r.R, 0);
+    out.set(r.t, 9);
+  },
+} as const;
+
+/** [R row-major, t] (12 numbers) → Pose (copies). */
+export function poseFromArray12(x: ArrayLike<number>): Pose {
+  if (x.length !== 12) throw new RangeError(`poseFromArray12: expected 12 numbers, got ${x.length}`);
+  const a = Float64Array.from(x);
+  return { R: a.slice(0, 9), t: a.slice(9, 12) };
+}
+
+/** Pose → [R row-major, t] (12 numbers). */
+export function poseToArray12(T: Pose, out: Float64Array = new Float64Array(12)): Float64Array {
+  out.set(T.R, 0);
+  out.set(T.t, 9);
   return out;
 }

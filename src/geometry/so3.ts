@@ -22,8 +22,10 @@ export function so3Exp(omega: ArrayLike<number>, out: Mat3 = new Float64Array(9)
     b = 0.5 - th2 / 24;
   } else {
     const th = Math.sqrt(th2);
+    const sh = Math.sin(0.5 * th);
     a = Math.sin(th) / th;
-    b = (1 - Math.cos(th)) / th2;
+    // 1 − cos θ = 2 sin²(θ/2), without the cancellation of 1 − cos θ at small θ.
+    b = (2 * sh * sh) / th2;
   }
   // [ω]×² = ωωᵀ − θ² I
   out[0] = 1 + b * (x * x - th2);
@@ -119,7 +121,8 @@ export function so3LeftJacobian(omega: ArrayLike<number>, out: Mat3 = new Float6
     b = 1 / 6 - th2 / 120;
   } else {
     const th = Math.sqrt(th2);
-    a = (1 - Math.cos(th)) / th2;
+    const sh = Math.sin(0.5 * th);
+    a = (2 * sh * sh) / th2;
     b = (th - Math.sin(th)) / (th2 * th);
   }
   out[0] = 1 + b * (x * x - th2);
@@ -134,16 +137,21 @@ export function so3LeftJacobian(omega: ArrayLike<number>, out: Mat3 = new Float6
   return out;
 }
 
-/** Inverse of the left Jacobian: J_l⁻¹(ω) = I − ½[ω]× + (1/θ² − (1 + cos θ)/(2θ sin θ))[ω]×². */
+/**
+ * Inverse of the left Jacobian: J_l⁻¹(ω) = I − ½[ω]× + (1/θ² − (1 + cos θ)/(2θ sin θ))[ω]×²,
+ * with (1 + cos θ)/sin θ = cot(θ/2), which stays finite at θ = π (where sin θ → 0).
+ * Taylor branch for θ < 1e-2: 1/12 + θ²/720 + θ⁴/30240 (the closed form loses ~1e-7
+ * relative there to cancellation between 1/θ² and cot(θ/2)/(2θ)).
+ */
 export function so3LeftJacobianInverse(omega: ArrayLike<number>, out: Mat3 = new Float64Array(9)): Mat3 {
   const x = omega[0]!, y = omega[1]!, z = omega[2]!;
   const th2 = x * x + y * y + z * z;
   let c: number;
-  if (th2 < SMALL_ANGLE * SMALL_ANGLE) {
-    c = 1 / 12 + th2 / 720;
+  if (th2 < 1e-4) {
+    c = 1 / 12 + th2 / 720 + (th2 * th2) / 30240;
   } else {
     const th = Math.sqrt(th2);
-    c = 1 / th2 - (1 + Math.cos(th)) / (2 * th * Math.sin(th));
+    c = 1 / th2 - 1 / (2 * th * Math.tan(0.5 * th));
   }
   const a = -0.5;
   out[0] = 1 + c * (x * x - th2);
@@ -156,6 +164,40 @@ export function so3LeftJacobianInverse(omega: ArrayLike<number>, out: Mat3 = new
   out[7] = a * x + c * y * z;
   out[8] = 1 + c * (z * z - th2);
   return out;
+}
+
+/**
+ * q = R p. J_q_R (3x3, left perturbation R ← exp(δ)R): −[q]×. J_q_p (3x3): R.
+ */
+export function so3Act(R: ArrayLike<number>, p: ArrayLike<number>, out: Vec3 = new Float64Array(3), J_q_R?: Float64Array, J_q_p?: Float64Array): Vec3 {
+  const x = p[0]!, y = p[1]!, z = p[2]!;
+  const qx = R[0]! * x + R[1]! * y + R[2]! * z;
+  const qy = R[3]! * x + R[4]! * y + R[5]! * z;
+  const qz = R[6]! * x + R[7]! * y + R[8]! * z;
+  out[0] = qx;
+  out[1] = qy;
+  out[2] = qz;
+  if (J_q_R) {
+    J_q_R[0] = 0; J_q_R[1] = qz; J_q_R[2] = -qy;
+    J_q_R[3] = -qz; J_q_R[4] = 0; J_q_R[5] = qx;
+    J_q_R[6] = qy; J_q_R[7] = -qx; J_q_R[8] = 0;
+  }
+  if (J_q_p) for (let i = 0; i < 9; i++) J_q_p[i] = R[i]!;
+  return out;
+}
+
+/** vee: the vector w of a skew-symmetric matrix [w]× (row-major), w = (M21, M02, M10). */
+export function so3Vee(M: ArrayLike<number>, out: Vec3 = new Float64Array(3)): Vec3 {
+  out[0] = M[7]!;
+  out[1] = M[2]!;
+  out[2] = M[3]!;
+  return out;
+}
+
+/** The rotation angle |log(R)| in [0, π], radians. */
+export function so3Angle(R: ArrayLike<number>): number {
+  const w = so3Log(R);
+  return Math.sqrt(w[0]! * w[0]! + w[1]! * w[1]! + w[2]! * w[2]!);
 }
 
 /** The nearest rotation (Frobenius norm) to an arbitrary 3x3 matrix, via SVD: U diag(1,1,det(UVᵀ)) Vᵀ. */

@@ -17,8 +17,7 @@
  */
 import { cameraModel } from '../camera/registry.js';
 import type { CameraModel } from '../camera/model.js';
-import { adjoint, inverse, poseClone, type Pose } from '../geometry/se3.js';
-import { se3LeftManifold } from '../geometry/pose-manifold.js';
+import { adjoint, inverse, poseClone, se3LeftManifold, type Pose } from '../geometry/se3.js';
 import type { Session } from '../io/types.js';
 import { Problem } from '../solver/problem.js';
 import { solve, type LmOptions, type SolveSummary, type IterationRecord } from '../solver/lm.js';

@@ -1,0 +1,89 @@
+/**
+ * Rig file (formats.md, rig-calibration/1) from a solution, and the derived
+ * figures it carries: quaternion wxyz (w ≥ 0), URDF roll-pitch-yaw in
+ * degrees, 1-sigma rotation (deg) and position (mm).
+ *
+ * Position sigma: with the left perturbation, δt_parent_camera = δt − [t]× δr,
+ * so the position covariance is J Σ Jᵀ with J = [−[t]×, I].
+ */
+import { matrixToQuat, matrixToRpy } from '../geometry/rotation.js';
+import type { RigCamera, RigFile } from '../io/types.js';
+import type { CameraResult, RigSolution } from './solve.js';
+
+export const RIG_FORMAT = 'rig-calibration/1';
+const DEG = 180 / Math.PI;
+
+/** Position covariance (3x3) of t from the 6x6 pose covariance (left perturbation). */
+export function positionCovariance(t: ArrayLike<number>, cov: ArrayLike<number>): Float64Array {
+  // J = [−[t]×, I] (3x6)
+  const tx = t[0]!, ty = t[1]!, tz = t[2]!;
+  const J = [0, tz, -ty, 1, 0, 0, -tz, 0, tx, 0, 1, 0, ty, -tx, 0, 0, 0, 1];
+  const JS = new Float64Array(18);
+  for (let i = 0; i < 3; i++) for (let j = 0; j < 6; j++) {
+    let s = 0;
+    for (let k = 0; k < 6; k++) s += J[i * 6 + k]! * cov[k * 6 + j]!;
+    JS[i * 6 + j] = s;
+  }
+  const P = new Float64Array(9);
+  for (let i = 0; i < 3; i++) for (let j = 0; j < 3; j++) {
+    let s = 0;
+    for (let k = 0; k < 6; k++) s += JS[i * 6 + k]! * J[j * 6 + k]!;
+    P[i * 3 + j] = s;
+  }
+  return P;
+}
+
+/** Rounds away binary noise below 1e-15 relative so files stay readable; keeps full double precision otherwise. */
+function clean(x: number): number {
+  return Object.is(x, -0) ? 0 : x;
+}
+
+export function rigCameraEntry(cam: CameraResult, rootName: string): RigCamera {
+  const T = cam.T_ref_cam;
+  const q = matrixToQuat(T.R);
+  const rpy = matrixToRpy(T.R);
+  const P = positionCovariance(T.t, cam.covariance);
+  const nd = cam.model.numDistortion;
+  const sqrt0 = (v: number) => Math.sqrt(Math.max(0, v));
+  return {
+    name: cam.name,
+    parent: cam.isReference ? null : rootName,
+    translation: [clean(T.t[0]!), clean(T.t[1]!), clean(T.t[2]!)],
+    quaternion_wxyz: [clean(q[0]!), clean(q[1]!), clean(q[2]!), clean(q[3]!)],
+    rpy_deg: [clean(rpy[0]! * DEG), clean(rpy[1]! * DEG), clean(rpy[2]! * DEG)],
+    sigma_translation_mm: [sqrt0(P[0]!) * 1000, sqrt0(P[4]!) * 1000, sqrt0(P[8]!) * 1000],
+    sigma_rotation_deg: [sqrt0(cam.covariance[0]!) * DEG, sqrt0(cam.covariance[7]!) * DEG, sqrt0(cam.covariance[14]!) * DEG],
+    covariance: Array.from(cam.covariance, clean),
+    model: cam.model.name,
+    resolution: [0, 0],
+    focal: [cam.intrinsics[0]!, cam.intrinsics[1]!],
+    center: [cam.intrinsics[2]!, cam.intrinsics[3]!],
+    distortion: Array.from(cam.intrinsics.subarray(4, 4 + nd)),
+    rms_px: Number.isFinite(cam.rmsPx) ? cam.rmsPx : 0,
+    detections_used: cam.detectionsUsed,
+    detections_rejected: cam.detectionsRejected,
+  };
+}
+
+export function buildRigFile(solution: RigSolution): RigFile {
+  const s = solution.session;
+  const root = s.cameras[solution.reference]!.name;
+  const cameras = solution.cameras.map((c) => {
+    const entry = rigCameraEntry(c, root);
+    entry.resolution = [...s.cameras[c.index]!.resolution];
+    return entry;
+  });
+  return {
+    format: RIG_FORMAT,
+    name: s.name,
+    root,
+    cameras,
+    quality: {
+      rms_px: solution.rmsPx,
+      sigma0: solution.sigma0,
+      frames_used: solution.framesUsed,
+      iterations: solution.iterations,
+      converged: solution.converged,
+    },
+  };
+}
