@@ -19,7 +19,7 @@
  */
 import type { CameraModel } from '../camera/model.js';
 import { compose, inverse, type Pose } from '../geometry/se3.js';
-import { so3Log } from '../geometry/so3.js';
+import { so3Angle } from '../geometry/so3.js';
 import { mat3Mul, mat3Transpose } from '../linalg/small.js';
 import type { Session } from '../io/types.js';
 import { solvePnP } from '../pnp/index.js';
@@ -43,9 +43,7 @@ function median(values: number[]): number {
 
 /** Rotation angle between two rotations, radians. */
 export function rotationAngle(R1: ArrayLike<number>, R2: ArrayLike<number>): number {
-  const Rt = mat3Transpose(new Float64Array(9), R1);
-  const d = so3Log(mat3Mul(new Float64Array(9), Rt, R2));
-  return Math.hypot(d[0]!, d[1]!, d[2]!);
+  return so3Angle(mat3Mul(new Float64Array(9), mat3Transpose(new Float64Array(9), R1), R2));
 }
 
 /** Step 1: PnP per view. `models[c]` and `params[c]` are the cameras' current intrinsics. */
