@@ -1,0 +1,493 @@
+/**
+ * Normal equations of the Gauss–Newton model and their Schur-complement solve.
+ *
+ * Linearisation (per residual block, one evaluate() call):
+ *   1. residuals r (m) and inner Jacobian J (m x p), p = innerSize;
+ *   2. loss weighting per group (IRLS: r̃ = √ρ′ r, J̃ = √ρ′ J, see loss.ts);
+ *   3. A = J̃ᵀJ̃ (p x p) and b = J̃ᵀr̃ (p), formed once per block;
+ *   4. for every pair of non-constant positions (k, l):
+ *        H_kl += M_kᵀ A M_l,   g_k += M_kᵀ b
+ *      (M_k = column selection when the block is not mapped).
+ * H is split into the kept part H_cc (dense nc x nc, nc = Σ kept tangent
+ * sizes: small), the block-diagonal eliminated part H_ee (one te x te block
+ * per eliminated block) and the coupling blocks H_ec (te x tc), stored only
+ * for the (eliminated, kept) pairs that share a residual block.
+ *
+ * Damped solve of (H + λD) δ = −g, D = diag(d) (Marquardt scaling):
+ *   S  = H_cc + λD_c − Σ_e H_ceᵀ… = H_cc + λD_c − Σ_e H_ecᵀ (H_ee + λD_e)⁻¹ H_ec
+ *   s  = −g_c + Σ_e H_ecᵀ (H_ee + λD_e)⁻¹ g_e
+ *   S δ_c = s (dense Cholesky),
+ *   δ_e = (H_ee + λD_e)⁻¹ (−g_e − H_ec δ_c)  (back-substitution).
+ * The cost of one linearisation is linear in the number of residuals; the
+ * Schur update is Σ_e (#couplings_e)² small products, never an
+ * (#eliminated x #kept) dense array.
+ *
+ * Fixed tangent coordinates get a zero gradient, zero rows and columns and a
+ * unit diagonal, so their step is exactly zero.
+ */
+import { choleskyInPlace, choleskySolveInPlace } from '../linalg/small.js';
+import { POS_CONSTANT, POS_ELIMINATED, POS_KEPT, type Problem, type ProblemLayout } from './problem-builder.js';
+
+export type LinearSolveStatus =
+  | { ok: true }
+  | { ok: false; reason: 'eliminated_block_not_positive_definite'; blockId: number; column: number }
+  | { ok: false; reason: 'reduced_system_not_positive_definite'; column: number };
+
+/** Result of evaluating one residual block's residuals at the current values. */
+export type EvaluationStatus = { ok: true } | { ok: false; residualBlock: number };
+
+export class NormalEquations {
+  readonly layout: ProblemLayout;
+  /** ½ Σ ρ at the last linearize()/evaluateCost(). */
+  cost = 0;
+  /** Gradient g = J̃ᵀr̃ over the global tangent vector (length N). */
+  readonly g: Float64Array;
+  /** Diagonal of the undamped H over the global tangent vector. */
+  readonly diag: Float64Array;
+  readonly Hcc: Float64Array;
+  readonly Hee: Float64Array;
+  readonly Hec: Float64Array;
+  /** Reduced matrix S and right-hand side after reduce(); S holds its Cholesky factor after factor(). */
+  readonly S: Float64Array;
+  readonly rhs: Float64Array;
+  /** Per-eliminated-block Cholesky factors of H_ee + λD_e from the last reduce(). */
+  private readonly Lee: Float64Array;
+  private readonly r: Float64Array;
+  private readonly J: Float64Array;
+  private readonly A: Float64Array;
+  private readonly b: Float64Array;
+  private readonly T: Float64Array;
+  private readonly B: Float64Array;
+  private readonly gk: Float64Array;
+  private readonly z: Float64Array;
+  private readonly Y: Float64Array;
+  private readonly rho = new Float64Array(3);
+  private readonly mapViews: Float64Array[][];
+  private readonly rViews: Float64Array[];
+  private readonly jViews: Float64Array[];
+
+  constructor(readonly problem: Problem) {
+    const L = problem.layout();
+    this.layout = L;
+    const N = L.numTangent;
+    const nc = L.numKept;
+    this.g = new Float64Array(N);
+    this.diag = new Float64Array(N);
+    this.Hcc = new Float64Array(nc * nc);
+    this.S = new Float64Array(nc * nc);
+    this.rhs = new Float64Array(nc);
+    this.Hee = new Float64Array(L.heeTotal);
+    this.Lee = new Float64Array(L.heeTotal);
+    this.Hec = new Float64Array(L.hecTotal);
+    const p = L.maxInner;
+    const t = L.maxTangent;
+    this.r = new Float64Array(L.maxResiduals);
+    this.J = new Float64Array(L.maxResiduals * p);
+    this.A = new Float64Array(p * p);
+    this.b = new Float64Array(p);
+    this.T = new Float64Array(p * t);
+    this.B = new Float64Array(t * t);
+    this.gk = new Float64Array(t);
+    this.z = new Float64Array(t);
+    this.Y = new Float64Array(t * L.maxCouplingWidth);
+    // Views sized exactly per residual block, created once so evaluation allocates nothing.
+    let maxArity = 0;
+    for (let i = 0; i < problem.numResidualBlocks; i++) maxArity = Math.max(maxArity, problem.residualBlock(i).parameterBlocks.length);
+    const mapScratch = Array.from({ length: maxArity }, () => new Float64Array(p * t));
+    this.mapViews = [];
+    this.rViews = [];
+    this.jViews = [];
+    for (let i = 0; i < problem.numResidualBlocks; i++) {
+      const rb = problem.residualBlock(i);
+      this.rViews.push(this.r.subarray(0, rb.numResiduals));
+      this.jViews.push(this.J.subarray(0, rb.numResiduals * rb.innerSize));
+      this.mapViews.push(
+        rb.mapped
+          ? rb.parameterBlocks.map((pb, k) => mapScratch[k]!.subarray(0, rb.innerSize * problem.parameterBlock(pb).tangentSize))
+          : [],
+      );
+    }
+  }
+
+  /**
+   * Cost ½ Σ_g ρ(‖r_g‖²) at the current values, residuals only. Returns the
+   * failing residual block when an evaluate() call returns false or a
+   * non-finite residual.
+   */
+  evaluateCost(): EvaluationStatus {
+    const pr = this.problem;
+    let cost = 0;
+    const rho = this.rho;
+    for (let i = 0; i < pr.numResidualBlocks; i++) {
+      const rb = pr.residualBlock(i);
+      const r = this.rViews[i]!;
+      if (!rb.evaluate(pr.residualParams(i), r, null, null)) return { ok: false, residualBlock: i };
+      const m = rb.numResiduals;
+      const gs = rb.lossGroupSize ?? m;
+      const loss = rb.loss;
+      for (let g0 = 0; g0 < m; g0 += gs) {
+        let s = 0;
+        for (let q = g0; q < g0 + gs; q++) s += r[q]! * r[q]!;
+        if (loss) {
+          loss.evaluate(s, rho);
+          cost += 0.5 * rho[0]!;
+        } else cost += 0.5 * s;
+      }
+    }
+    if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
+    this.cost = cost;
+    return { ok: true };
+  }
+
+  /** Evaluates residuals and Jacobians and assembles H, g (see file comment). */
+  linearize(): EvaluationStatus {
+    const pr = this.problem;
+    const L = this.layout;
+    const nc = L.numKept;
+    this.g.fill(0);
+    this.Hcc.fill(0);
+    this.Hee.fill(0);
+    this.Hec.fill(0);
+    const A = this.A;
+    const bv = this.b;
+    const rho = this.rho;
+    let cost = 0;
+    for (let i = 0; i < pr.numResidualBlocks; i++) {
+      const rb = pr.residualBlock(i);
+      const r = this.rViews[i]!;
+      const J = this.jViews[i]!;
+      const maps = rb.mapped ? this.mapViews[i]! : null;
+      if (!rb.evaluate(pr.residualParams(i), r, J, maps)) return { ok: false, residualBlock: i };
+      const m = rb.numResiduals;
+      const p = rb.innerSize;
+      const gs = rb.lossGroupSize ?? m;
+      const loss = rb.loss;
+      // Loss weighting per group (IRLS scaling).
+      for (let g0 = 0; g0 < m; g0 += gs) {
+        let s = 0;
+        for (let q = g0; q < g0 + gs; q++) s += r[q]! * r[q]!;
+        if (!loss) {
+          cost += 0.5 * s;
+          continue;
+        }
+        loss.evaluate(s, rho);
+        cost += 0.5 * rho[0]!;
+        const d1 = rho[1]!;
+        if (d1 === 1) continue;
+        const w = d1 > 0 ? Math.sqrt(d1) : 0;
+        for (let q = g0; q < g0 + gs; q++) {
+          r[q] = r[q]! * w;
+          const base = q * p;
+          for (let c = 0; c < p; c++) J[base + c] = J[base + c]! * w;
+        }
+      }
+      // A = JᵀJ (upper triangle, then mirrored), b = Jᵀr.
+      A.fill(0, 0, p * p);
+      bv.fill(0, 0, p);
+      for (let q = 0; q < m; q++) {
+        const base = q * p;
+        const rq = r[q]!;
+        for (let a = 0; a < p; a++) {
+          const ja = J[base + a]!;
+          if (ja === 0) continue;
+          bv[a] = bv[a]! + ja * rq;
+          const row = a * p;
+          for (let c = a; c < p; c++) A[row + c] = A[row + c]! + ja * J[base + c]!;
+        }
+      }
+      for (let a = 0; a < p; a++) for (let c = 0; c < a; c++) A[a * p + c] = A[c * p + a]!;
+      this.scatter(i, rb.parameterBlocks, p, maps, nc);
+    }
+    if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
+    this.cost = cost;
+    this.applyFixedAndDiagonal();
+    return { ok: true };
+  }
+
+  /** H_kl += M_kᵀ A M_l and g_k += M_kᵀ b for the positions of residual block i. */
+  private scatter(i: number, ps: readonly number[], p: number, maps: Float64Array[] | null, nc: number): void {
+    const L = this.layout;
+    const pr = this.problem;
+    const kinds = L.posKind[i]!;
+    const cols = L.posColumn[i]!;
+    const hecs = L.posHec[i]!;
+    const A = this.A;
+    const T = this.T;
+    const B = this.B;
+    const gk = this.gk;
+    const g = this.g;
+    for (let k = 0; k < ps.length; k++) {
+      const kk = kinds[k]!;
+      if (kk === POS_CONSTANT) continue;
+      const bk = ps[k]!;
+      const tk = pr.parameterBlock(bk).tangentSize;
+      const Mk = maps ? maps[k]! : null;
+      const ck = cols[k]!;
+      // Gradient: g_k += M_kᵀ b.
+      if (Mk) {
+        gk.fill(0, 0, tk);
+        for (let a = 0; a < p; a++) {
+          const ba = this.b[a]!;
+          if (ba === 0) continue;
+          const row = a * tk;
+          for (let u = 0; u < tk; u++) gk[u] = gk[u]! + Mk[row + u]! * ba;
+        }
+      } else for (let u = 0; u < tk; u++) gk[u] = this.b[ck + u]!;
+      const gOff = L.globalOffset[bk]!;
+      for (let u = 0; u < tk; u++) g[gOff + u] = g[gOff + u]! + gk[u]!;
+      for (let l = 0; l < ps.length; l++) {
+        const kl = kinds[l]!;
+        if (kl === POS_CONSTANT) continue;
+        // Only H_ec (eliminated rows, kept columns) is stored, not its transpose.
+        if (kk === POS_KEPT && kl === POS_ELIMINATED) continue;
+        const bl = ps[l]!;
+        const tl = pr.parameterBlock(bl).tangentSize;
+        // B = M_kᵀ A M_l (tk x tl).
+        if (Mk) {
+          const Ml = maps![l]!;
+          // T = A M_l (p x tl)
+          for (let a = 0; a < p; a++) {
+            const rowA = a * p;
+            const rowT = a * tl;
+            for (let v = 0; v < tl; v++) {
+              let s = 0;
+              for (let c = 0; c < p; c++) s += A[rowA + c]! * Ml[c * tl + v]!;
+              T[rowT + v] = s;
+            }
+          }
+          B.fill(0, 0, tk * tl);
+          for (let a = 0; a < p; a++) {
+            const rowM = a * tk;
+            const rowT = a * tl;
+            for (let u = 0; u < tk; u++) {
+              const mu = Mk[rowM + u]!;
+              if (mu === 0) continue;
+              const rowB = u * tl;
+              for (let v = 0; v < tl; v++) B[rowB + v] = B[rowB + v]! + mu * T[rowT + v]!;
+            }
+          }
+        } else {
+          const cl = cols[l]!;
+          for (let u = 0; u < tk; u++) {
+            const rowA = (ck + u) * p + cl;
+            for (let v = 0; v < tl; v++) B[u * tl + v] = A[rowA + v]!;
+          }
+        }
+        // Destination.
+        let dest: Float64Array;
+        let off: number;
+        let stride: number;
+        if (kk === POS_KEPT && kl === POS_KEPT) {
+          dest = this.Hcc;
+          off = L.globalOffset[bk]! * nc + L.globalOffset[bl]!;
+          stride = nc;
+        } else if (kk === POS_ELIMINATED && kl === POS_ELIMINATED) {
+          dest = this.Hee;
+          off = L.heeOffset[L.elimIndex[bk]!]!;
+          stride = tk;
+        } else {
+          dest = this.Hec;
+          off = hecs[l]!;
+          stride = tl;
+        }
+        for (let u = 0; u < tk; u++) {
+          const rowD = off + u * stride;
+          const rowB = u * tl;
+          for (let v = 0; v < tl; v++) dest[rowD + v] = dest[rowD + v]! + B[rowB + v]!;
+        }
+      }
+    }
+  }
+
+  /** Zeroes fixed coordinates (unit diagonal) and records diag(H). */
+  private applyFixedAndDiagonal(): void {
+    const pr = this.problem;
+    const L = this.layout;
+    const nc = L.numKept;
+    for (const id of L.keptBlocks) {
+      const blk = pr.parameterBlock(id);
+      const o = L.globalOffset[id]!;
+      for (const f of blk.fixedTangentIndices) {
+        const gi = o + f;
+        this.g[gi] = 0;
+        for (let j = 0; j < nc; j++) {
+          this.Hcc[gi * nc + j] = 0;
+          this.Hcc[j * nc + gi] = 0;
+        }
+        this.Hcc[gi * nc + gi] = 1;
+      }
+    }
+    L.elimBlocks.forEach((id, ei) => {
+      const blk = pr.parameterBlock(id);
+      const te = blk.tangentSize;
+      const ho = L.heeOffset[ei]!;
+      const couplings = L.couplings[ei]!;
+      const offs = L.hecOffsets[ei]!;
+      for (const f of blk.fixedTangentIndices) {
+        this.g[L.globalOffset[id]! + f] = 0;
+        for (let j = 0; j < te; j++) {
+          this.Hee[ho + f * te + j] = 0;
+          this.Hee[ho + j * te + f] = 0;
+        }
+        this.Hee[ho + f * te + f] = 1;
+        for (let j = 0; j < couplings.length; j++) {
+          const tc = pr.parameterBlock(couplings[j]!).tangentSize;
+          this.Hec.fill(0, offs[j]! + f * tc, offs[j]! + (f + 1) * tc);
+        }
+      }
+      // Kept blocks' fixed columns inside H_ec.
+      for (let j = 0; j < couplings.length; j++) {
+        const c = pr.parameterBlock(couplings[j]!);
+        if (c.fixedTangentIndices.length === 0) continue;
+        const tc = c.tangentSize;
+        for (let u = 0; u < te; u++) for (const f of c.fixedTangentIndices) this.Hec[offs[j]! + u * tc + f] = 0;
+      }
+      for (let u = 0; u < te; u++) this.diag[L.globalOffset[id]! + u] = this.Hee[ho + u * te + u]!;
+    });
+    for (let i = 0; i < nc; i++) this.diag[i] = this.Hcc[i * nc + i]!;
+  }
+
+  /**
+   * Forms the reduced system S, rhs for damping λ·D (D over the global tangent
+   * vector; pass λ = 0 for the undamped information matrix). Leaves the
+   * factors of every H_ee + λD_e for backSubstitute().
+   */
+  reduce(lambda: number, D: Float64Array): LinearSolveStatus {
+    const pr = this.problem;
+    const L = this.layout;
+    const nc = L.numKept;
+    const S = this.S;
+    const rhs = this.rhs;
+    S.set(this.Hcc);
+    for (let i = 0; i < nc; i++) {
+      S[i * nc + i] = S[i * nc + i]! + lambda * D[i]!;
+      rhs[i] = -this.g[i]!;
+    }
+    const z = this.z;
+    const Y = this.Y;
+    for (let ei = 0; ei < L.elimBlocks.length; ei++) {
+      const id = L.elimBlocks[ei]!;
+      const te = pr.parameterBlock(id).tangentSize;
+      const ho = L.heeOffset[ei]!;
+      const go = L.globalOffset[id]!;
+      const Lf = this.Lee.subarray(ho, ho + te * te);
+      Lf.set(this.Hee.subarray(ho, ho + te * te));
+      for (let u = 0; u < te; u++) Lf[u * te + u] = Lf[u * te + u]! + lambda * D[go + u]!;
+      const col = choleskyInPlace(Lf, te);
+      if (col >= 0) return { ok: false, reason: 'eliminated_block_not_positive_definite', blockId: id, column: col };
+      // z = (H_ee + λD_e)⁻¹ g_e
+      for (let u = 0; u < te; u++) z[u] = this.g[go + u]!;
+      choleskySolveInPlace(Lf, te, z.subarray(0, te));
+      const couplings = L.couplings[ei]!;
+      const offs = L.hecOffsets[ei]!;
+      const nco = couplings.length;
+      // Y = (H_ee + λD_e)⁻¹ [H_ec_1 … H_ec_n], te x W, column-block j starts at yOff_j.
+      let W = 0;
+      for (let j = 0; j < nco; j++) W += pr.parameterBlock(couplings[j]!).tangentSize;
+      let yOff = 0;
+      for (let j = 0; j < nco; j++) {
+        const tc = pr.parameterBlock(couplings[j]!).tangentSize;
+        const ho2 = offs[j]!;
+        for (let u = 0; u < te; u++) for (let v = 0; v < tc; v++) Y[u * W + yOff + v] = this.Hec[ho2 + u * tc + v]!;
+        yOff += tc;
+      }
+      // Solve column by column in place (Y stored with row stride W).
+      for (let v = 0; v < W; v++) {
+        for (let u = 0; u < te; u++) {
+          let s = Y[u * W + v]!;
+          for (let q = 0; q < u; q++) s -= Lf[u * te + q]! * Y[q * W + v]!;
+          Y[u * W + v] = s / Lf[u * te + u]!;
+        }
+        for (let u = te - 1; u >= 0; u--) {
+          let s = Y[u * W + v]!;
+          for (let q = u + 1; q < te; q++) s -= Lf[q * te + u]! * Y[q * W + v]!;
+          Y[u * W + v] = s / Lf[u * te + u]!;
+        }
+      }
+      // S_c1c2 −= H_ec1ᵀ Y_c2 ; rhs_c1 += H_ec1ᵀ z
+      for (let j1 = 0; j1 < nco; j1++) {
+        const c1 = couplings[j1]!;
+        const t1 = pr.parameterBlock(c1).tangentSize;
+        const o1 = L.globalOffset[c1]!;
+        const h1 = offs[j1]!;
+        for (let a = 0; a < t1; a++) {
+          let s = 0;
+          for (let u = 0; u < te; u++) s += this.Hec[h1 + u * t1 + a]! * z[u]!;
+          rhs[o1 + a] = rhs[o1 + a]! + s;
+        }
+        let y2 = 0;
+        for (let j2 = 0; j2 < nco; j2++) {
+          const c2 = couplings[j2]!;
+          const t2 = pr.parameterBlock(c2).tangentSize;
+          const o2 = L.globalOffset[c2]!;
+          for (let a = 0; a < t1; a++) {
+            const rowS = (o1 + a) * nc + o2;
+            for (let v = 0; v < t2; v++) {
+              let s = 0;
+              for (let u = 0; u < te; u++) s += this.Hec[h1 + u * t1 + a]! * Y[u * W + y2 + v]!;
+              S[rowS + v] = S[rowS + v]! - s;
+            }
+          }
+          y2 += t2;
+        }
+      }
+    }
+    return { ok: true };
+  }
+
+  /**
+   * Solves the damped system (H + λD) δ = −g into `delta` (global tangent
+   * vector). A non-positive-definite matrix is reported as a status.
+   */
+  solve(lambda: number, D: Float64Array, delta: Float64Array): LinearSolveStatus {
+    const st = this.reduce(lambda, D);
+    if (!st.ok) return st;
+    const L = this.layout;
+    const nc = L.numKept;
+    if (nc > 0) {
+      const col = choleskyInPlace(this.S, nc);
+      if (col >= 0) return { ok: false, reason: 'reduced_system_not_positive_definite', column: col };
+      choleskySolveInPlace(this.S, nc, this.rhs);
+    }
+    delta.set(this.rhs.subarray(0, nc), 0);
+    this.backSubstitute(delta);
+    // Fixed coordinates are exactly zero by construction; enforce it against round-off.
+    const pr = this.problem;
+    for (let id = 0; id < pr.numParameterBlocks; id++) {
+      const o = L.globalOffset[id]!;
+      if (o < 0) continue;
+      for (const f of pr.parameterBlock(id).fixedTangentIndices) delta[o + f] = 0;
+    }
+    return { ok: true };
+  }
+
+  /** δ_e = (H_ee + λD_e)⁻¹ (−g_e − H_ec δ_c), using the factors from reduce(). */
+  private backSubstitute(delta: Float64Array): void {
+    const pr = this.problem;
+    const L = this.layout;
+    const w = this.z;
+    for (let ei = 0; ei < L.elimBlocks.length; ei++) {
+      const id = L.elimBlocks[ei]!;
+      const te = pr.parameterBlock(id).tangentSize;
+      const go = L.globalOffset[id]!;
+      const ho = L.heeOffset[ei]!;
+      for (let u = 0; u < te; u++) w[u] = -this.g[go + u]!;
+      const couplings = L.couplings[ei]!;
+      const offs = L.hecOffsets[ei]!;
+      for (let j = 0; j < couplings.length; j++) {
+        const c = couplings[j]!;
+        const tc = pr.parameterBlock(c).tangentSize;
+        const oc = L.globalOffset[c]!;
+        const h = offs[j]!;
+        for (let u = 0; u < te; u++) {
+          let s = 0;
+          for (let v = 0; v < tc; v++) s += this.Hec[h + u * tc + v]! * delta[oc + v]!;
+          w[u] = w[u]! - s;
+        }
+      }
+      const wv = w.subarray(0, te);
+      choleskySolveInPlace(this.Lee.subarray(ho, ho + te * te), te, wv);
+      for (let u = 0; u < te; u++) delta[go + u] = wv[u]!;
+    }
+  }
+}
