@@ -41,6 +41,13 @@ export interface LmOptions {
   diagonalFloor: number;
   /** Upper clamp of the Marquardt diagonal. > diagonalFloor. */
   diagonalCeiling: number;
+  /**
+   * Keep the running maximum of the Marquardt diagonal over iterations,
+   * D_ii ← max(D_ii(previous), clamp(H_ii)), as in Moré's MINPACK scaling
+   * ("The Levenberg–Marquardt algorithm: implementation and theory", 1978).
+   * Helps on badly scaled problems whose Jacobian columns shrink along the path.
+   */
+  diagonalMemory: boolean;
   /** Wall-clock limit in seconds; stops with 'no_convergence'. > 0 (Infinity allowed). */
   maxSolverTimeSeconds: number;
   /** Debug: compare every residual block's analytic Jacobian with central differences before iterating; a mismatch ends the solve with 'failure'. */
@@ -64,6 +71,7 @@ export const DEFAULT_LM_OPTIONS: Readonly<LmOptions> = Object.freeze({
   minGainRatio: 1e-3,
   diagonalFloor: 1e-6,
   diagonalCeiling: 1e32,
+  diagonalMemory: false,
   maxSolverTimeSeconds: Infinity,
   checkJacobians: false,
   jacobianCheckStep: 1e-6,
@@ -83,6 +91,20 @@ export const lmPresets = Object.freeze({
     functionTolerance: 1e-15,
     gradientTolerance: 0,
     parameterTolerance: 1e-14,
+  }) as Readonly<Partial<LmOptions>>,
+  /**
+   * `precise` plus measures for hard, badly scaled starts: a large initial λ
+   * (cautious first steps), Moré's diagonal memory, a λ floor low enough for
+   * Gauss–Newton steps on huge Marquardt diagonals, and up to 20000 iterations.
+   */
+  robust: Object.freeze({
+    maxIterations: 20000,
+    functionTolerance: 1e-15,
+    gradientTolerance: 0,
+    parameterTolerance: 1e-14,
+    initialLambda: 1e3,
+    diagonalMemory: true,
+    minLambda: 1e-30,
   }) as Readonly<Partial<LmOptions>>,
 });
 
@@ -112,6 +134,7 @@ export function validateLmOptions(o: LmOptions): OptionIssue[] {
   check('minGainRatio', num(o.minGainRatio) && o.minGainRatio >= 0 && o.minGainRatio < 1, '0 ≤ minGainRatio < 1');
   check('diagonalFloor', num(o.diagonalFloor) && o.diagonalFloor > 0, 'diagonalFloor > 0');
   check('diagonalCeiling', num(o.diagonalCeiling) && o.diagonalCeiling > o.diagonalFloor, 'diagonalCeiling > diagonalFloor');
+  check('diagonalMemory', typeof o.diagonalMemory === 'boolean', 'diagonalMemory is a boolean');
   check('maxSolverTimeSeconds', num(o.maxSolverTimeSeconds) && o.maxSolverTimeSeconds > 0, 'maxSolverTimeSeconds > 0');
   check('checkJacobians', typeof o.checkJacobians === 'boolean', 'checkJacobians is a boolean');
   check('jacobianCheckStep', num(o.jacobianCheckStep) && o.jacobianCheckStep > 0, 'jacobianCheckStep > 0');
@@ -278,7 +301,10 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
     if (ti - t0 > o.maxSolverTimeSeconds) {
       return finish('no_convergence', `time limit: ${(ti - t0).toFixed(3)} s > maxSolverTimeSeconds = ${o.maxSolverTimeSeconds}`, cost);
     }
-    for (let i = 0; i < N; i++) D[i] = Math.min(Math.max(ne.diag[i]!, o.diagonalFloor), o.diagonalCeiling);
+    for (let i = 0; i < N; i++) {
+      const d = Math.min(Math.max(ne.diag[i]!, o.diagonalFloor), o.diagonalCeiling);
+      D[i] = o.diagonalMemory && it > 1 ? Math.max(D[i]!, d) : d;
+    }
     const record: IterationRecord = {
       iteration: it,
       cost,
