@@ -26,6 +26,7 @@
  * unit diagonal, so their step is exactly zero.
  */
 import { choleskyInPlace, choleskySolveInPlace } from '../linalg/small.js';
+import type { LossFunction } from './loss.js';
 import { POS_CONSTANT, POS_ELIMINATED, POS_KEPT, type Problem, type ProblemLayout } from './problem-builder.js';
 
 export type LinearSolveStatus =
@@ -35,6 +36,91 @@ export type LinearSolveStatus =
 
 /** Result of evaluating one residual block's residuals at the current values. */
 export type EvaluationStatus = { ok: true } | { ok: false; residualBlock: number };
+
+/**
+ * Loss weighting of one residual block in place (IRLS, see loss.ts): for each
+ * group of gs residuals, r_g ← √ρ′ r_g and J_g ← √ρ′ J_g. Returns ½ Σ_g ρ(‖r_g‖²).
+ */
+function weightGroups(r: Float64Array, J: Float64Array, m: number, p: number, gs: number, loss: LossFunction, rho: Float64Array): number {
+  let cost = 0;
+  for (let g0 = 0; g0 < m; g0 += gs) {
+    let s = 0;
+    const g1 = g0 + gs;
+    for (let q = g0; q < g1; q++) s += r[q]! * r[q]!;
+    loss.evaluate(s, rho);
+    cost += rho[0]!;
+    const d1 = rho[1]!;
+    if (d1 === 1) continue;
+    const w = d1 > 0 ? Math.sqrt(d1) : 0;
+    for (let q = g0; q < g1; q++) r[q] = r[q]! * w;
+    const e = g1 * p;
+    for (let k = g0 * p; k < e; k++) J[k] = J[k]! * w;
+  }
+  return 0.5 * cost;
+}
+
+/** ½ Σ_g ρ(‖r_g‖²) over groups of gs residuals (ρ(s) = s without a loss). */
+function groupCost(r: Float64Array, m: number, gs: number, loss: LossFunction | undefined, rho: Float64Array): number {
+  let cost = 0;
+  if (!loss) {
+    for (let q = 0; q < m; q++) cost += r[q]! * r[q]!;
+    return 0.5 * cost;
+  }
+  for (let g0 = 0; g0 < m; g0 += gs) {
+    let s = 0;
+    const g1 = g0 + gs;
+    for (let q = g0; q < g1; q++) s += r[q]! * r[q]!;
+    loss.evaluate(s, rho);
+    cost += rho[0]!;
+  }
+  return 0.5 * cost;
+}
+
+/** A = JᵀJ (p x p, full), b = Jᵀr for an m x p row-major J. */
+function normalGeneric(J: Float64Array, r: Float64Array, m: number, p: number, A: Float64Array, b: Float64Array): void {
+  A.fill(0, 0, p * p);
+  b.fill(0, 0, p);
+  for (let q = 0; q < m; q++) {
+    const base = q * p;
+    const rq = r[q]!;
+    for (let a = 0; a < p; a++) {
+      const ja = J[base + a]!;
+      b[a] = b[a]! + ja * rq;
+      const row = a * p;
+      for (let c = a; c < p; c++) A[row + c] = A[row + c]! + ja * J[base + c]!;
+    }
+  }
+  for (let a = 0; a < p; a++) for (let c = 0; c < a; c++) A[a * p + c] = A[c * p + a]!;
+}
+
+/** normalGeneric for p = 6 with the 21 + 6 sums kept in registers (the pose-sized hot path). */
+function normal6(J: Float64Array, r: Float64Array, m: number, A: Float64Array, b: Float64Array): void {
+  let a00 = 0, a01 = 0, a02 = 0, a03 = 0, a04 = 0, a05 = 0;
+  let a11 = 0, a12 = 0, a13 = 0, a14 = 0, a15 = 0;
+  let a22 = 0, a23 = 0, a24 = 0, a25 = 0;
+  let a33 = 0, a34 = 0, a35 = 0;
+  let a44 = 0, a45 = 0;
+  let a55 = 0;
+  let b0 = 0, b1 = 0, b2 = 0, b3 = 0, b4 = 0, b5 = 0;
+  for (let q = 0, o = 0; q < m; q++, o += 6) {
+    const j0 = J[o]!, j1 = J[o + 1]!, j2 = J[o + 2]!, j3 = J[o + 3]!, j4 = J[o + 4]!, j5 = J[o + 5]!;
+    const rq = r[q]!;
+    b0 += j0 * rq; b1 += j1 * rq; b2 += j2 * rq; b3 += j3 * rq; b4 += j4 * rq; b5 += j5 * rq;
+    a00 += j0 * j0; a01 += j0 * j1; a02 += j0 * j2; a03 += j0 * j3; a04 += j0 * j4; a05 += j0 * j5;
+    a11 += j1 * j1; a12 += j1 * j2; a13 += j1 * j3; a14 += j1 * j4; a15 += j1 * j5;
+    a22 += j2 * j2; a23 += j2 * j3; a24 += j2 * j4; a25 += j2 * j5;
+    a33 += j3 * j3; a34 += j3 * j4; a35 += j3 * j5;
+    a44 += j4 * j4; a45 += j4 * j5;
+    a55 += j5 * j5;
+  }
+  A[0] = a00; A[1] = a01; A[2] = a02; A[3] = a03; A[4] = a04; A[5] = a05;
+  A[6] = a01; A[7] = a11; A[8] = a12; A[9] = a13; A[10] = a14; A[11] = a15;
+  A[12] = a02; A[13] = a12; A[14] = a22; A[15] = a23; A[16] = a24; A[17] = a25;
+  A[18] = a03; A[19] = a13; A[20] = a23; A[21] = a33; A[22] = a34; A[23] = a35;
+  A[24] = a04; A[25] = a14; A[26] = a24; A[27] = a34; A[28] = a44; A[29] = a45;
+  A[30] = a05; A[31] = a15; A[32] = a25; A[33] = a35; A[34] = a45; A[35] = a55;
+  b[0] = b0; b[1] = b1; b[2] = b2; b[3] = b3; b[4] = b4; b[5] = b5;
+}
 
 export class NormalEquations {
   readonly layout: ProblemLayout;
@@ -123,16 +209,7 @@ export class NormalEquations {
       const r = this.rViews[i]!;
       if (!rb.evaluate(pr.residualParams(i), r, null, null)) return { ok: false, residualBlock: i };
       const m = rb.numResiduals;
-      const gs = rb.lossGroupSize ?? m;
-      const loss = rb.loss;
-      for (let g0 = 0; g0 < m; g0 += gs) {
-        let s = 0;
-        for (let q = g0; q < g0 + gs; q++) s += r[q]! * r[q]!;
-        if (loss) {
-          loss.evaluate(s, rho);
-          cost += 0.5 * rho[0]!;
-        } else cost += 0.5 * s;
-      }
+      cost += groupCost(r, m, rb.lossGroupSize ?? m, rb.loss, rho);
     }
     if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
     this.cost = cost;
@@ -162,40 +239,14 @@ export class NormalEquations {
       const p = rb.innerSize;
       const gs = rb.lossGroupSize ?? m;
       const loss = rb.loss;
-      // Loss weighting per group (IRLS scaling).
-      for (let g0 = 0; g0 < m; g0 += gs) {
-        let s = 0;
-        for (let q = g0; q < g0 + gs; q++) s += r[q]! * r[q]!;
-        if (!loss) {
-          cost += 0.5 * s;
-          continue;
-        }
-        loss.evaluate(s, rho);
-        cost += 0.5 * rho[0]!;
-        const d1 = rho[1]!;
-        if (d1 === 1) continue;
-        const w = d1 > 0 ? Math.sqrt(d1) : 0;
-        for (let q = g0; q < g0 + gs; q++) {
-          r[q] = r[q]! * w;
-          const base = q * p;
-          for (let c = 0; c < p; c++) J[base + c] = J[base + c]! * w;
-        }
+      if (loss) cost += weightGroups(r, J, m, p, gs, loss, rho);
+      else {
+        let ss = 0;
+        for (let q = 0; q < m; q++) ss += r[q]! * r[q]!;
+        cost += 0.5 * ss;
       }
-      // A = JᵀJ (upper triangle, then mirrored), b = Jᵀr.
-      A.fill(0, 0, p * p);
-      bv.fill(0, 0, p);
-      for (let q = 0; q < m; q++) {
-        const base = q * p;
-        const rq = r[q]!;
-        for (let a = 0; a < p; a++) {
-          const ja = J[base + a]!;
-          if (ja === 0) continue;
-          bv[a] = bv[a]! + ja * rq;
-          const row = a * p;
-          for (let c = a; c < p; c++) A[row + c] = A[row + c]! + ja * J[base + c]!;
-        }
-      }
-      for (let a = 0; a < p; a++) for (let c = 0; c < a; c++) A[a * p + c] = A[c * p + a]!;
+      if (p === 6) normal6(J, r, m, A, bv);
+      else normalGeneric(J, r, m, p, A, bv);
       this.scatter(i, rb.parameterBlocks, p, maps, nc);
     }
     if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
