@@ -122,6 +122,54 @@ function normal6(J: Float64Array, r: Float64Array, m: number, A: Float64Array, b
   b[0] = b0; b[1] = b1; b[2] = b2; b[3] = b3; b[4] = b4; b[5] = b5;
 }
 
+/**
+ * In-place Cholesky of the n x n row-major matrix stored at M[off…]; lower
+ * triangle holds L afterwards. Returns the failing column or −1 (same
+ * algorithm as linalg/small.ts choleskyInPlace, with an offset so the flat
+ * per-block buffers need no subarray views).
+ */
+function choleskyAt(M: Float64Array, off: number, n: number): number {
+  for (let j = 0; j < n; j++) {
+    let d = M[off + j * n + j]!;
+    for (let k = 0; k < j; k++) d -= M[off + j * n + k]! * M[off + j * n + k]!;
+    if (!(d > 0)) return j;
+    const ljj = Math.sqrt(d);
+    M[off + j * n + j] = ljj;
+    for (let i = j + 1; i < n; i++) {
+      let s = M[off + i * n + j]!;
+      for (let k = 0; k < j; k++) s -= M[off + i * n + k]! * M[off + j * n + k]!;
+      M[off + i * n + j] = s / ljj;
+    }
+  }
+  return -1;
+}
+
+/** Solves L Lᵀ X = B in place for B (n x w, row-major, rows of length w), L at M[off…]. */
+function solveRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w: number): void {
+  for (let i = 0; i < n; i++) {
+    const bi = i * w;
+    for (let k = 0; k < i; k++) {
+      const l = M[off + i * n + k]!;
+      if (l === 0) continue;
+      const bk = k * w;
+      for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! - l * B[bk + v]!;
+    }
+    const inv = 1 / M[off + i * n + i]!;
+    for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! * inv;
+  }
+  for (let i = n - 1; i >= 0; i--) {
+    const bi = i * w;
+    for (let k = i + 1; k < n; k++) {
+      const l = M[off + k * n + i]!;
+      if (l === 0) continue;
+      const bk = k * w;
+      for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! - l * B[bk + v]!;
+    }
+    const inv = 1 / M[off + i * n + i]!;
+    for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! * inv;
+  }
+}
+
 export class NormalEquations {
   readonly layout: ProblemLayout;
   /** ½ Σ ρ at the last linearize()/evaluateCost(). */
@@ -142,11 +190,15 @@ export class NormalEquations {
   private readonly J: Float64Array;
   private readonly A: Float64Array;
   private readonly b: Float64Array;
-  private readonly T: Float64Array;
+  private readonly Tl: Float64Array[];
   private readonly B: Float64Array;
   private readonly gk: Float64Array;
   private readonly z: Float64Array;
   private readonly Y: Float64Array;
+  private readonly X: Float64Array;
+  private readonly P: Float64Array;
+  /** Per eliminated block: global kept column of each stacked coupling column. */
+  private readonly stackIndex: Int32Array[];
   private readonly rho = new Float64Array(3);
   private readonly mapViews: Float64Array[][];
   private readonly rViews: Float64Array[];
@@ -171,15 +223,25 @@ export class NormalEquations {
     this.J = new Float64Array(L.maxResiduals * p);
     this.A = new Float64Array(p * p);
     this.b = new Float64Array(p);
-    this.T = new Float64Array(p * t);
     this.B = new Float64Array(t * t);
     this.gk = new Float64Array(t);
     this.z = new Float64Array(t);
     this.Y = new Float64Array(t * L.maxCouplingWidth);
+    this.X = new Float64Array(t * L.maxCouplingWidth);
+    this.P = new Float64Array(L.maxCouplingWidth * L.maxCouplingWidth);
+    this.stackIndex = L.couplings.map((cs) => {
+      const out: number[] = [];
+      for (const c of cs) {
+        const o = L.globalOffset[c]!;
+        for (let v = 0; v < problem.parameterBlock(c).tangentSize; v++) out.push(o + v);
+      }
+      return Int32Array.from(out);
+    });
     // Views sized exactly per residual block, created once so evaluation allocates nothing.
     let maxArity = 0;
     for (let i = 0; i < problem.numResidualBlocks; i++) maxArity = Math.max(maxArity, problem.residualBlock(i).parameterBlocks.length);
     const mapScratch = Array.from({ length: maxArity }, () => new Float64Array(p * t));
+    this.Tl = Array.from({ length: maxArity }, () => new Float64Array(p * t));
     this.mapViews = [];
     this.rViews = [];
     this.jViews = [];
@@ -263,11 +325,32 @@ export class NormalEquations {
     const cols = L.posColumn[i]!;
     const hecs = L.posHec[i]!;
     const A = this.A;
-    const T = this.T;
+    const b = this.b;
     const B = this.B;
     const gk = this.gk;
     const g = this.g;
-    for (let k = 0; k < ps.length; k++) {
+    const Tl = this.Tl;
+    const n = ps.length;
+    // T_l = A M_l (p x t_l), once per position.
+    if (maps) {
+      for (let l = 0; l < n; l++) {
+        if (kinds[l] === POS_CONSTANT) continue;
+        const tl = pr.parameterBlock(ps[l]!).tangentSize;
+        const Ml = maps[l]!;
+        const T = Tl[l]!;
+        T.fill(0, 0, p * tl);
+        for (let a = 0; a < p; a++) {
+          const rowT = a * tl;
+          for (let c = 0; c < p; c++) {
+            const ac = A[a * p + c]!;
+            if (ac === 0) continue;
+            const rowM = c * tl;
+            for (let v = 0; v < tl; v++) T[rowT + v] = T[rowT + v]! + ac * Ml[rowM + v]!;
+          }
+        }
+      }
+    }
+    for (let k = 0; k < n; k++) {
       const kk = kinds[k]!;
       if (kk === POS_CONSTANT) continue;
       const bk = ps[k]!;
@@ -278,52 +361,21 @@ export class NormalEquations {
       if (Mk) {
         gk.fill(0, 0, tk);
         for (let a = 0; a < p; a++) {
-          const ba = this.b[a]!;
+          const ba = b[a]!;
           if (ba === 0) continue;
           const row = a * tk;
           for (let u = 0; u < tk; u++) gk[u] = gk[u]! + Mk[row + u]! * ba;
         }
-      } else for (let u = 0; u < tk; u++) gk[u] = this.b[ck + u]!;
+      } else for (let u = 0; u < tk; u++) gk[u] = b[ck + u]!;
       const gOff = L.globalOffset[bk]!;
       for (let u = 0; u < tk; u++) g[gOff + u] = g[gOff + u]! + gk[u]!;
-      for (let l = 0; l < ps.length; l++) {
+      for (let l = 0; l < n; l++) {
         const kl = kinds[l]!;
         if (kl === POS_CONSTANT) continue;
         // Only H_ec (eliminated rows, kept columns) is stored, not its transpose.
         if (kk === POS_KEPT && kl === POS_ELIMINATED) continue;
         const bl = ps[l]!;
         const tl = pr.parameterBlock(bl).tangentSize;
-        // B = M_kᵀ A M_l (tk x tl).
-        if (Mk) {
-          const Ml = maps![l]!;
-          // T = A M_l (p x tl)
-          for (let a = 0; a < p; a++) {
-            const rowA = a * p;
-            const rowT = a * tl;
-            for (let v = 0; v < tl; v++) {
-              let s = 0;
-              for (let c = 0; c < p; c++) s += A[rowA + c]! * Ml[c * tl + v]!;
-              T[rowT + v] = s;
-            }
-          }
-          B.fill(0, 0, tk * tl);
-          for (let a = 0; a < p; a++) {
-            const rowM = a * tk;
-            const rowT = a * tl;
-            for (let u = 0; u < tk; u++) {
-              const mu = Mk[rowM + u]!;
-              if (mu === 0) continue;
-              const rowB = u * tl;
-              for (let v = 0; v < tl; v++) B[rowB + v] = B[rowB + v]! + mu * T[rowT + v]!;
-            }
-          }
-        } else {
-          const cl = cols[l]!;
-          for (let u = 0; u < tk; u++) {
-            const rowA = (ck + u) * p + cl;
-            for (let v = 0; v < tl; v++) B[u * tl + v] = A[rowA + v]!;
-          }
-        }
         // Destination.
         let dest: Float64Array;
         let off: number;
@@ -341,10 +393,32 @@ export class NormalEquations {
           off = hecs[l]!;
           stride = tl;
         }
-        for (let u = 0; u < tk; u++) {
-          const rowD = off + u * stride;
-          const rowB = u * tl;
-          for (let v = 0; v < tl; v++) dest[rowD + v] = dest[rowD + v]! + B[rowB + v]!;
+        if (Mk) {
+          // B = M_kᵀ T_l (tk x tl)
+          const T = Tl[l]!;
+          B.fill(0, 0, tk * tl);
+          for (let a = 0; a < p; a++) {
+            const rowM = a * tk;
+            const rowT = a * tl;
+            for (let u = 0; u < tk; u++) {
+              const mu = Mk[rowM + u]!;
+              if (mu === 0) continue;
+              const rowB = u * tl;
+              for (let v = 0; v < tl; v++) B[rowB + v] = B[rowB + v]! + mu * T[rowT + v]!;
+            }
+          }
+          for (let u = 0; u < tk; u++) {
+            const rowD = off + u * stride;
+            const rowB = u * tl;
+            for (let v = 0; v < tl; v++) dest[rowD + v] = dest[rowD + v]! + B[rowB + v]!;
+          }
+        } else {
+          const cl = cols[l]!;
+          for (let u = 0; u < tk; u++) {
+            const rowD = off + u * stride;
+            const rowA = (ck + u) * p + cl;
+            for (let v = 0; v < tl; v++) dest[rowD + v] = dest[rowD + v]! + A[rowA + v]!;
+          }
         }
       }
     }
@@ -409,80 +483,76 @@ export class NormalEquations {
     const nc = L.numKept;
     const S = this.S;
     const rhs = this.rhs;
+    const g = this.g;
+    const Hec = this.Hec;
+    const Hee = this.Hee;
+    const Lee = this.Lee;
     S.set(this.Hcc);
     for (let i = 0; i < nc; i++) {
       S[i * nc + i] = S[i * nc + i]! + lambda * D[i]!;
-      rhs[i] = -this.g[i]!;
+      rhs[i] = -g[i]!;
     }
     const z = this.z;
     const Y = this.Y;
+    const X = this.X;
+    const P = this.P;
     for (let ei = 0; ei < L.elimBlocks.length; ei++) {
       const id = L.elimBlocks[ei]!;
       const te = pr.parameterBlock(id).tangentSize;
       const ho = L.heeOffset[ei]!;
       const go = L.globalOffset[id]!;
-      const Lf = this.Lee.subarray(ho, ho + te * te);
-      Lf.set(this.Hee.subarray(ho, ho + te * te));
-      for (let u = 0; u < te; u++) Lf[u * te + u] = Lf[u * te + u]! + lambda * D[go + u]!;
-      const col = choleskyInPlace(Lf, te);
+      // Factor H_ee + λD_e into Lee (lower triangle).
+      for (let k = 0; k < te * te; k++) Lee[ho + k] = Hee[ho + k]!;
+      for (let u = 0; u < te; u++) Lee[ho + u * te + u] = Lee[ho + u * te + u]! + lambda * D[go + u]!;
+      const col = choleskyAt(Lee, ho, te);
       if (col >= 0) return { ok: false, reason: 'eliminated_block_not_positive_definite', blockId: id, column: col };
       // z = (H_ee + λD_e)⁻¹ g_e
-      for (let u = 0; u < te; u++) z[u] = this.g[go + u]!;
-      choleskySolveInPlace(Lf, te, z.subarray(0, te));
+      for (let u = 0; u < te; u++) z[u] = g[go + u]!;
+      solveRowsAt(Lee, ho, te, z, 1);
+      // Stacked couplings: Y = [H_ec_1 … H_ec_n] (te x W), X = Yᵀ (W x te), idx = global column of each stacked column.
+      const idx = this.stackIndex[ei]!;
+      const W = idx.length;
+      if (W === 0) continue;
       const couplings = L.couplings[ei]!;
       const offs = L.hecOffsets[ei]!;
-      const nco = couplings.length;
-      // Y = (H_ee + λD_e)⁻¹ [H_ec_1 … H_ec_n], te x W, column-block j starts at yOff_j.
-      let W = 0;
-      for (let j = 0; j < nco; j++) W += pr.parameterBlock(couplings[j]!).tangentSize;
       let yOff = 0;
-      for (let j = 0; j < nco; j++) {
+      for (let j = 0; j < couplings.length; j++) {
         const tc = pr.parameterBlock(couplings[j]!).tangentSize;
-        const ho2 = offs[j]!;
-        for (let u = 0; u < te; u++) for (let v = 0; v < tc; v++) Y[u * W + yOff + v] = this.Hec[ho2 + u * tc + v]!;
+        const h = offs[j]!;
+        for (let u = 0; u < te; u++) {
+          for (let v = 0; v < tc; v++) {
+            const val = Hec[h + u * tc + v]!;
+            Y[u * W + yOff + v] = val;
+            X[(yOff + v) * te + u] = val;
+          }
+        }
         yOff += tc;
       }
-      // Solve column by column in place (Y stored with row stride W).
-      for (let v = 0; v < W; v++) {
-        for (let u = 0; u < te; u++) {
-          let s = Y[u * W + v]!;
-          for (let q = 0; q < u; q++) s -= Lf[u * te + q]! * Y[q * W + v]!;
-          Y[u * W + v] = s / Lf[u * te + u]!;
-        }
-        for (let u = te - 1; u >= 0; u--) {
-          let s = Y[u * W + v]!;
-          for (let q = u + 1; q < te; q++) s -= Lf[q * te + u]! * Y[q * W + v]!;
-          Y[u * W + v] = s / Lf[u * te + u]!;
-        }
+      // rhs_c += H_ecᵀ z
+      for (let a = 0; a < W; a++) {
+        let sum = 0;
+        for (let u = 0; u < te; u++) sum += X[a * te + u]! * z[u]!;
+        rhs[idx[a]!] = rhs[idx[a]!]! + sum;
       }
-      // S_c1c2 −= H_ec1ᵀ Y_c2 ; rhs_c1 += H_ec1ᵀ z
-      for (let j1 = 0; j1 < nco; j1++) {
-        const c1 = couplings[j1]!;
-        const t1 = pr.parameterBlock(c1).tangentSize;
-        const o1 = L.globalOffset[c1]!;
-        const h1 = offs[j1]!;
-        for (let a = 0; a < t1; a++) {
-          let s = 0;
-          for (let u = 0; u < te; u++) s += this.Hec[h1 + u * t1 + a]! * z[u]!;
-          rhs[o1 + a] = rhs[o1 + a]! + s;
+      // Y ← (H_ee + λD_e)⁻¹ Y, row operations on all W columns at once.
+      solveRowsAt(Lee, ho, te, Y, W);
+      // P = X Y (W x W, symmetric), S[idx, idx] −= P.
+      for (let a = 0; a < W; a++) {
+        const rowS = idx[a]! * nc;
+        const pa = a * W;
+        for (let v = a; v < W; v++) P[pa + v] = 0;
+        for (let u = 0; u < te; u++) {
+          const xa = X[a * te + u]!;
+          if (xa === 0) continue;
+          const yu = u * W;
+          for (let v = a; v < W; v++) P[pa + v] = P[pa + v]! + xa * Y[yu + v]!;
         }
-        let y2 = 0;
-        for (let j2 = 0; j2 < nco; j2++) {
-          const c2 = couplings[j2]!;
-          const t2 = pr.parameterBlock(c2).tangentSize;
-          const o2 = L.globalOffset[c2]!;
-          for (let a = 0; a < t1; a++) {
-            const rowS = (o1 + a) * nc + o2;
-            for (let v = 0; v < t2; v++) {
-              let s = 0;
-              for (let u = 0; u < te; u++) s += this.Hec[h1 + u * t1 + a]! * Y[u * W + y2 + v]!;
-              S[rowS + v] = S[rowS + v]! - s;
-            }
-          }
-          y2 += t2;
-        }
+        // idx is ascending, so these writes land in S's upper triangle only.
+        for (let v = a; v < W; v++) S[rowS + idx[v]!] = S[rowS + idx[v]!]! - P[pa + v]!;
       }
     }
+    // Mirror the upper triangle into the lower one (used by the Cholesky).
+    for (let r = 1; r < nc; r++) for (let c = 0; c < r; c++) S[r * nc + c] = S[c * nc + r]!;
     return { ok: true };
   }
 
@@ -536,9 +606,8 @@ export class NormalEquations {
           w[u] = w[u]! - s;
         }
       }
-      const wv = w.subarray(0, te);
-      choleskySolveInPlace(this.Lee.subarray(ho, ho + te * te), te, wv);
-      for (let u = 0; u < te; u++) delta[go + u] = wv[u]!;
+      solveRowsAt(this.Lee, ho, te, w, 1);
+      for (let u = 0; u < te; u++) delta[go + u] = w[u]!;
     }
   }
 }
