@@ -61,7 +61,13 @@ describe('covariance', () => {
     expect(res.covariance.numResiduals).toBe(240);
     expect(res.covariance.numFreeParameters).toBe(46);
     expect(2 * problemCost(pp.problem)).toBeCloseTo(rss, 12);
-    if (eliminate) expect(() => res.covariance.block(pp.bIds[0]!)).toThrow(/eliminated/);
+    if (eliminate) {
+      expect(() => res.covariance.block(pp.bIds[0]!)).toThrow(/eliminated/);
+      // Marginal of an eliminated block: dense coordinates of B4 start at 6 + 2·4.
+      const ref = new Float64Array(4);
+      for (let a = 0; a < 2; a++) for (let b = 0; b < 2; b++) ref[a * 2 + b] = cov.get(14 + a, 14 + b);
+      expectMatrixClose(res.covariance.eliminatedBlock(pp.bIds[4]!), ref, { rel: 1e-6 }, 'eliminated B4');
+    }
   });
 
   test('fixed tangent indices get zero rows and columns; the rest is the reduced-problem inverse', () => {

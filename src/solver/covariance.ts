@@ -15,6 +15,9 @@
  * When λ_min(C)/λ_max(C) < minReciprocalCondition the result is a status
  * naming the blocks and tangent indices with large weight in the
  * near-null eigenvectors; there is no silent pseudo-inverse.
+ *
+ * The marginal covariance of one eliminated block is available on request
+ * (Covariance.eliminatedBlock) from the block-inverse formula.
  */
 import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { spdInverse } from '../linalg/small.js';
@@ -61,7 +64,66 @@ export class Covariance {
     readonly numResiduals: number,
     readonly numFreeParameters: number,
     readonly reciprocalCondition: number,
+    /** Undamped normal equations at the covariance point, kept for eliminatedBlock(). */
+    private readonly ne: NormalEquations,
   ) {}
+
+  /**
+   * Marginal covariance of an eliminated block e (te x te row-major):
+   *   Σ_ee = H_ee⁻¹ + Y Σ_cc Yᵀ,  Y = H_ee⁻¹ H_ec,
+   * the (e, e) block of the full inverse by the block-inverse formula;
+   * fixed tangent coordinates get zero rows and columns.
+   */
+  eliminatedBlock(id: number): Float64Array {
+    const L = this.problem.layout();
+    const ei = L.elimIndex[id] ?? -1;
+    if (ei < 0) throw new RangeError(`covariance: parameter block "${this.problem.labelOf(id)}" is not eliminated; use block()`);
+    const blk = this.problem.parameterBlock(id);
+    const te = blk.tangentSize;
+    const ho = L.heeOffset[ei]!;
+    const Hinv = spdInverse(this.ne.Hee.subarray(ho, ho + te * te), te);
+    if (!Hinv) throw new RangeError(`covariance: eliminated block "${blk.label}" has a singular information matrix`);
+    const couplings = L.couplings[ei]!;
+    const offs = L.hecOffsets[ei]!;
+    const idx: number[] = [];
+    const cols: { off: number; tc: number; j: number }[] = [];
+    couplings.forEach((c, j) => {
+      const tc = this.problem.parameterBlock(c).tangentSize;
+      cols.push({ off: L.globalOffset[c]!, tc, j });
+      for (let v = 0; v < tc; v++) idx.push(L.globalOffset[c]! + v);
+    });
+    const W = idx.length;
+    // Hs = [H_ec_1 … H_ec_n] (te x W); Y = H_ee⁻¹ Hs.
+    const Hs = new Float64Array(te * W);
+    let y0 = 0;
+    for (const { tc, j } of cols) {
+      for (let u = 0; u < te; u++) for (let v = 0; v < tc; v++) Hs[u * W + y0 + v] = this.ne.Hec[offs[j]! + u * tc + v]!;
+      y0 += tc;
+    }
+    const Y = new Float64Array(te * W);
+    for (let u = 0; u < te; u++)
+      for (let v = 0; v < W; v++) {
+        let s = 0;
+        for (let q = 0; q < te; q++) s += Hinv[u * te + q]! * Hs[q * W + v]!;
+        Y[u * W + v] = s;
+      }
+    // Z = Y Σ_cc[idx, idx]  (te x W)
+    const Z = new Float64Array(te * W);
+    for (let u = 0; u < te; u++)
+      for (let v = 0; v < W; v++) {
+        let s = 0;
+        for (let a = 0; a < W; a++) s += Y[u * W + a]! * this.matrix[idx[a]! * this.size + idx[v]!]!;
+        Z[u * W + v] = s;
+      }
+    const out = new Float64Array(te * te);
+    for (let u = 0; u < te; u++)
+      for (let w = 0; w < te; w++) {
+        let s = Hinv[u * te + w]!;
+        for (let v = 0; v < W; v++) s += Z[u * W + v]! * Y[w * W + v]!;
+        out[u * te + w] = blk.fixedMask[u] || blk.fixedMask[w] ? 0 : s;
+      }
+    return out;
+  }
 
   private offsetOf(id: number): number {
     const o = this.problem.layout().globalOffset[id] ?? -1;
@@ -154,7 +216,7 @@ export function computeCovariance(problem: Problem, options: CovarianceOptions =
   }
   const nf = free.length;
   const matrix = new Float64Array(nc * nc);
-  if (nf === 0) return { ok: true, covariance: new Covariance(problem, matrix, nc, sigma0Squared, m, n, 1) };
+  if (nf === 0) return { ok: true, covariance: new Covariance(problem, matrix, nc, sigma0Squared, m, n, 1, ne) };
   const group = (idx: number[]): PoorlyConstrained[] => {
     const byBlock = new Map<number, number[]>();
     for (const k of idx) {
@@ -224,5 +286,5 @@ export function computeCovariance(problem: Problem, options: CovarianceOptions =
   for (let a = 0; a < nf; a++) {
     for (let b = 0; b < nf; b++) matrix[free[a]!.gi * nc + free[b]!.gi] = Cinv[a * nf + b]! * scale[a]! * scale[b]!;
   }
-  return { ok: true, covariance: new Covariance(problem, matrix, nc, sigma0Squared, m, n, rc) };
+  return { ok: true, covariance: new Covariance(problem, matrix, nc, sigma0Squared, m, n, rc, ne) };
 }

@@ -170,6 +170,25 @@ function solveRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w
   }
 }
 
+/**
+ * P = X Y (W x W, upper triangle), then S[idx_a, idx_v] −= P_av for v ≥ a.
+ * X is W x te, Y is te x W; idx is ascending so only S's upper triangle is written.
+ */
+function schurSubtract(X: Float64Array, Y: Float64Array, P: Float64Array, S: Float64Array, idx: Int32Array, W: number, te: number, nc: number): void {
+  for (let a = 0; a < W; a++) {
+    const rowS = idx[a]! * nc;
+    const pa = a * W;
+    for (let v = a; v < W; v++) P[pa + v] = 0;
+    for (let u = 0; u < te; u++) {
+      const xa = X[a * te + u]!;
+      if (xa === 0) continue;
+      const yu = u * W;
+      for (let v = a; v < W; v++) P[pa + v] = P[pa + v]! + xa * Y[yu + v]!;
+    }
+    for (let v = a; v < W; v++) S[rowS + idx[v]!] = S[rowS + idx[v]!]! - P[pa + v]!;
+  }
+}
+
 export class NormalEquations {
   readonly layout: ProblemLayout;
   /** ½ Σ ρ at the last linearize()/evaluateCost(). */
@@ -536,20 +555,7 @@ export class NormalEquations {
       }
       // Y ← (H_ee + λD_e)⁻¹ Y, row operations on all W columns at once.
       solveRowsAt(Lee, ho, te, Y, W);
-      // P = X Y (W x W, symmetric), S[idx, idx] −= P.
-      for (let a = 0; a < W; a++) {
-        const rowS = idx[a]! * nc;
-        const pa = a * W;
-        for (let v = a; v < W; v++) P[pa + v] = 0;
-        for (let u = 0; u < te; u++) {
-          const xa = X[a * te + u]!;
-          if (xa === 0) continue;
-          const yu = u * W;
-          for (let v = a; v < W; v++) P[pa + v] = P[pa + v]! + xa * Y[yu + v]!;
-        }
-        // idx is ascending, so these writes land in S's upper triangle only.
-        for (let v = a; v < W; v++) S[rowS + idx[v]!] = S[rowS + idx[v]!]! - P[pa + v]!;
-      }
+      schurSubtract(X, Y, P, S, idx, W, te, nc);
     }
     // Mirror the upper triangle into the lower one (used by the Cholesky).
     for (let r = 1; r < nc; r++) for (let c = 0; c < r; c++) S[r * nc + c] = S[c * nc + r]!;
