@@ -73,6 +73,33 @@ describe('summary', () => {
     expect(fullReport(s)).toContain(s.message);
   });
 
+  test('with function and gradient tolerances off, the parameter tolerance fires', () => {
+    const { problem } = coupledPairsProblem();
+    const s = solve(problem, { functionTolerance: 0, gradientTolerance: 0, parameterTolerance: 1e-8 });
+    expect(s.termination).toBe('converged');
+    expect(s.message).toMatch(/^parameter tolerance: ‖δ‖ = .* < 1e-8 ·/);
+    expect(s.acceptedSteps + s.rejectedSteps).toBe(s.iterations.length);
+  });
+
+  test('starting at the optimum stops on the gradient tolerance without iterating', () => {
+    const p = new Problem();
+    p.addParameterBlock({ values: Float64Array.of(1, -2) });
+    p.addResidualBlock({
+      numResiduals: 2, parameterBlocks: [0], innerSize: 2, mapped: false,
+      evaluate(params, r, J) {
+        r[0] = params[0]![0]! - 1;
+        r[1] = 3 * (params[0]![1]! + 2);
+        if (J) { J[0] = 1; J[1] = 0; J[2] = 0; J[3] = 3; }
+        return true;
+      },
+    });
+    const s = solve(p);
+    expect(s.termination).toBe('converged');
+    expect(s.message).toMatch(/^gradient tolerance: max\|g\| = 0\.000e\+0 < 1e-10 at the initial values/);
+    expect(s.iterations).toEqual([]);
+    expect(s.finalCost).toBe(0);
+  });
+
   test('maxIterations reached gives no_convergence naming the criterion', () => {
     const { problem } = coupledPairsProblem({ startError: 0.3 });
     const s = solve(problem, { maxIterations: 1 });

@@ -190,6 +190,7 @@ export interface SolveSummary {
   message: string;
   initialCost: number;
   finalCost: number;
+  /** One record per tried step (accepted or rejected); a parameter-tolerance stop adds none. */
   iterations: IterationRecord[];
   acceptedSteps: number;
   rejectedSteps: number;
@@ -354,7 +355,7 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
     }
     const xNorm = Math.sqrt(xNorm2);
     if (stepNorm < o.parameterTolerance * (xNorm + o.parameterTolerance)) {
-      emit();
+      // The step is not tried, so no iteration record is added (acceptedSteps + rejectedSteps = iterations.length).
       return finish(
         'converged',
         `parameter tolerance: ‖δ‖ = ${stepNorm.toExponential(3)} < ${o.parameterTolerance} · (‖x‖ + ${o.parameterTolerance}) = ${(o.parameterTolerance * (xNorm + o.parameterTolerance)).toExponential(3)}`,
