@@ -76,21 +76,43 @@ function groupCost(r: Float64Array, m: number, gs: number, loss: LossFunction | 
   return 0.5 * cost;
 }
 
-/** A = JᵀJ (p x p, full), b = Jᵀr for an m x p row-major J. */
-function normalGeneric(J: Float64Array, r: Float64Array, m: number, p: number, A: Float64Array, b: Float64Array): void {
-  A.fill(0, 0, p * p);
-  b.fill(0, 0, p);
+/**
+ * A = JᵀJ (p x p, full), b = Jᵀr for an m x p row-major J. J is first
+ * transposed into JT (p x m) so every entry of A is a contiguous dot product
+ * with its accumulator in a register (four columns at a time).
+ */
+function normalGeneric(J: Float64Array, r: Float64Array, m: number, p: number, A: Float64Array, b: Float64Array, JT: Float64Array): void {
   for (let q = 0; q < m; q++) {
     const base = q * p;
-    const rq = r[q]!;
-    for (let a = 0; a < p; a++) {
-      const ja = J[base + a]!;
-      b[a] = b[a]! + ja * rq;
-      const row = a * p;
-      for (let c = a; c < p; c++) A[row + c] = A[row + c]! + ja * J[base + c]!;
+    for (let a = 0; a < p; a++) JT[a * m + q] = J[base + a]!;
+  }
+  for (let a = 0; a < p; a++) {
+    const oa = a * m;
+    let sb = 0;
+    for (let q = 0; q < m; q++) sb += JT[oa + q]! * r[q]!;
+    b[a] = sb;
+    let c = a;
+    for (; c + 3 < p; c += 4) {
+      const o0 = c * m, o1 = o0 + m, o2 = o1 + m, o3 = o2 + m;
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+      for (let q = 0; q < m; q++) {
+        const x = JT[oa + q]!;
+        s0 += x * JT[o0 + q]!;
+        s1 += x * JT[o1 + q]!;
+        s2 += x * JT[o2 + q]!;
+        s3 += x * JT[o3 + q]!;
+      }
+      A[a * p + c] = s0; A[a * p + c + 1] = s1; A[a * p + c + 2] = s2; A[a * p + c + 3] = s3;
+      A[c * p + a] = s0; A[(c + 1) * p + a] = s1; A[(c + 2) * p + a] = s2; A[(c + 3) * p + a] = s3;
+    }
+    for (; c < p; c++) {
+      const oc = c * m;
+      let s0 = 0;
+      for (let q = 0; q < m; q++) s0 += JT[oa + q]! * JT[oc + q]!;
+      A[a * p + c] = s0;
+      A[c * p + a] = s0;
     }
   }
-  for (let a = 0; a < p; a++) for (let c = 0; c < a; c++) A[a * p + c] = A[c * p + a]!;
 }
 
 /** normalGeneric for p = 6 with the 21 + 6 sums kept in registers (the pose-sized hot path). */
@@ -210,6 +232,7 @@ export class NormalEquations {
   private readonly A: Float64Array;
   private readonly b: Float64Array;
   private readonly Tl: Float64Array[];
+  private readonly JT: Float64Array;
   private readonly B: Float64Array;
   private readonly gk: Float64Array;
   private readonly z: Float64Array;
@@ -240,6 +263,7 @@ export class NormalEquations {
     const t = L.maxTangent;
     this.r = new Float64Array(L.maxResiduals);
     this.J = new Float64Array(L.maxResiduals * p);
+    this.JT = new Float64Array(L.maxResiduals * p);
     this.A = new Float64Array(p * p);
     this.b = new Float64Array(p);
     this.B = new Float64Array(t * t);
@@ -327,7 +351,7 @@ export class NormalEquations {
         cost += 0.5 * ss;
       }
       if (p === 6) normal6(J, r, m, A, bv);
-      else normalGeneric(J, r, m, p, A, bv);
+      else normalGeneric(J, r, m, p, A, bv, this.JT);
       this.scatter(i, rb.parameterBlocks, p, maps, nc);
     }
     if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
@@ -358,12 +382,16 @@ export class NormalEquations {
         const Ml = maps[l]!;
         const T = Tl[l]!;
         T.fill(0, 0, p * tl);
-        for (let a = 0; a < p; a++) {
-          const rowT = a * tl;
-          for (let c = 0; c < p; c++) {
+        // Skip the all-zero rows of M_l (common: a block enters only some inner coordinates).
+        for (let c = 0; c < p; c++) {
+          const rowM = c * tl;
+          let nz = false;
+          for (let v = 0; v < tl; v++) if (Ml[rowM + v] !== 0) { nz = true; break; }
+          if (!nz) continue;
+          for (let a = 0; a < p; a++) {
             const ac = A[a * p + c]!;
             if (ac === 0) continue;
-            const rowM = c * tl;
+            const rowT = a * tl;
             for (let v = 0; v < tl; v++) T[rowT + v] = T[rowT + v]! + ac * Ml[rowM + v]!;
           }
         }
