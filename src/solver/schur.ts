@@ -1,0 +1,647 @@
+/**
+ * Normal equations of the Gauss–Newton model and their Schur-complement solve.
+ *
+ * Linearisation (per residual block, one evaluate() call):
+ *   1. residuals r (m) and inner Jacobian J (m x p), p = innerSize;
+ *   2. loss weighting per group (IRLS: r̃ = √ρ′ r, J̃ = √ρ′ J, see loss.ts);
+ *   3. A = J̃ᵀJ̃ (p x p) and b = J̃ᵀr̃ (p), formed once per block;
+ *   4. for every pair of non-constant positions (k, l):
+ *        H_kl += M_kᵀ A M_l,   g_k += M_kᵀ b
+ *      (M_k = column selection when the block is not mapped).
+ * H is split into the kept part H_cc (dense nc x nc, nc = Σ kept tangent
+ * sizes: small), the block-diagonal eliminated part H_ee (one te x te block
+ * per eliminated block) and the coupling blocks H_ec (te x tc), stored only
+ * for the (eliminated, kept) pairs that share a residual block.
+ *
+ * Damped solve of (H + λD) δ = −g, D = diag(d) (Marquardt scaling):
+ *   S  = H_cc + λD_c − Σ_e H_ceᵀ… = H_cc + λD_c − Σ_e H_ecᵀ (H_ee + λD_e)⁻¹ H_ec
+ *   s  = −g_c + Σ_e H_ecᵀ (H_ee + λD_e)⁻¹ g_e
+ *   S δ_c = s (dense Cholesky),
+ *   δ_e = (H_ee + λD_e)⁻¹ (−g_e − H_ec δ_c)  (back-substitution).
+ * The cost of one linearisation is linear in the number of residuals; the
+ * Schur update is Σ_e (#couplings_e)² small products, never an
+ * (#eliminated x #kept) dense array.
+ *
+ * Fixed tangent coordinates get a zero gradient, zero rows and columns and a
+ * unit diagonal, so their step is exactly zero.
+ */
+import { choleskyInPlace, choleskySolveInPlace } from '../linalg/small.js';
+import type { LossFunction } from './loss.js';
+import { POS_CONSTANT, POS_ELIMINATED, POS_KEPT, type Problem, type ProblemLayout } from './problem-builder.js';
+
+export type LinearSolveStatus =
+  | { ok: true }
+  | { ok: false; reason: 'eliminated_block_not_positive_definite'; blockId: number; column: number }
+  | { ok: false; reason: 'reduced_system_not_positive_definite'; column: number };
+
+/** Result of evaluating one residual block's residuals at the current values. */
+export type EvaluationStatus = { ok: true } | { ok: false; residualBlock: number };
+
+/**
+ * Loss weighting of one residual block in place (IRLS, see loss.ts): for each
+ * group of gs residuals, r_g ← √ρ′ r_g and J_g ← √ρ′ J_g. Returns ½ Σ_g ρ(‖r_g‖²).
+ */
+function weightGroups(r: Float64Array, J: Float64Array, m: number, p: number, gs: number, loss: LossFunction, rho: Float64Array): number {
+  let cost = 0;
+  for (let g0 = 0; g0 < m; g0 += gs) {
+    let s = 0;
+    const g1 = g0 + gs;
+    for (let q = g0; q < g1; q++) s += r[q]! * r[q]!;
+    loss.evaluate(s, rho);
+    cost += rho[0]!;
+    const d1 = rho[1]!;
+    if (d1 === 1) continue;
+    const w = d1 > 0 ? Math.sqrt(d1) : 0;
+    for (let q = g0; q < g1; q++) r[q] = r[q]! * w;
+    const e = g1 * p;
+    for (let k = g0 * p; k < e; k++) J[k] = J[k]! * w;
+  }
+  return 0.5 * cost;
+}
+
+/** ½ Σ_g ρ(‖r_g‖²) over groups of gs residuals (ρ(s) = s without a loss). */
+function groupCost(r: Float64Array, m: number, gs: number, loss: LossFunction | undefined, rho: Float64Array): number {
+  let cost = 0;
+  if (!loss) {
+    for (let q = 0; q < m; q++) cost += r[q]! * r[q]!;
+    return 0.5 * cost;
+  }
+  for (let g0 = 0; g0 < m; g0 += gs) {
+    let s = 0;
+    const g1 = g0 + gs;
+    for (let q = g0; q < g1; q++) s += r[q]! * r[q]!;
+    loss.evaluate(s, rho);
+    cost += rho[0]!;
+  }
+  return 0.5 * cost;
+}
+
+/**
+ * A = JᵀJ (p x p, full), b = Jᵀr for an m x p row-major J. J is first
+ * transposed into JT (p x m) so every entry of A is a contiguous dot product
+ * with its accumulator in a register (four columns at a time).
+ */
+function normalGeneric(J: Float64Array, r: Float64Array, m: number, p: number, A: Float64Array, b: Float64Array, JT: Float64Array): void {
+  for (let q = 0; q < m; q++) {
+    const base = q * p;
+    for (let a = 0; a < p; a++) JT[a * m + q] = J[base + a]!;
+  }
+  for (let a = 0; a < p; a++) {
+    const oa = a * m;
+    let sb = 0;
+    for (let q = 0; q < m; q++) sb += JT[oa + q]! * r[q]!;
+    b[a] = sb;
+    let c = a;
+    for (; c + 3 < p; c += 4) {
+      const o0 = c * m, o1 = o0 + m, o2 = o1 + m, o3 = o2 + m;
+      let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+      for (let q = 0; q < m; q++) {
+        const x = JT[oa + q]!;
+        s0 += x * JT[o0 + q]!;
+        s1 += x * JT[o1 + q]!;
+        s2 += x * JT[o2 + q]!;
+        s3 += x * JT[o3 + q]!;
+      }
+      A[a * p + c] = s0; A[a * p + c + 1] = s1; A[a * p + c + 2] = s2; A[a * p + c + 3] = s3;
+      A[c * p + a] = s0; A[(c + 1) * p + a] = s1; A[(c + 2) * p + a] = s2; A[(c + 3) * p + a] = s3;
+    }
+    for (; c < p; c++) {
+      const oc = c * m;
+      let s0 = 0;
+      for (let q = 0; q < m; q++) s0 += JT[oa + q]! * JT[oc + q]!;
+      A[a * p + c] = s0;
+      A[c * p + a] = s0;
+    }
+  }
+}
+
+/** normalGeneric for p = 6 with the 21 + 6 sums kept in registers (the pose-sized hot path). */
+function normal6(J: Float64Array, r: Float64Array, m: number, A: Float64Array, b: Float64Array): void {
+  let a00 = 0, a01 = 0, a02 = 0, a03 = 0, a04 = 0, a05 = 0;
+  let a11 = 0, a12 = 0, a13 = 0, a14 = 0, a15 = 0;
+  let a22 = 0, a23 = 0, a24 = 0, a25 = 0;
+  let a33 = 0, a34 = 0, a35 = 0;
+  let a44 = 0, a45 = 0;
+  let a55 = 0;
+  let b0 = 0, b1 = 0, b2 = 0, b3 = 0, b4 = 0, b5 = 0;
+  for (let q = 0, o = 0; q < m; q++, o += 6) {
+    const j0 = J[o]!, j1 = J[o + 1]!, j2 = J[o + 2]!, j3 = J[o + 3]!, j4 = J[o + 4]!, j5 = J[o + 5]!;
+    const rq = r[q]!;
+    b0 += j0 * rq; b1 += j1 * rq; b2 += j2 * rq; b3 += j3 * rq; b4 += j4 * rq; b5 += j5 * rq;
+    a00 += j0 * j0; a01 += j0 * j1; a02 += j0 * j2; a03 += j0 * j3; a04 += j0 * j4; a05 += j0 * j5;
+    a11 += j1 * j1; a12 += j1 * j2; a13 += j1 * j3; a14 += j1 * j4; a15 += j1 * j5;
+    a22 += j2 * j2; a23 += j2 * j3; a24 += j2 * j4; a25 += j2 * j5;
+    a33 += j3 * j3; a34 += j3 * j4; a35 += j3 * j5;
+    a44 += j4 * j4; a45 += j4 * j5;
+    a55 += j5 * j5;
+  }
+  A[0] = a00; A[1] = a01; A[2] = a02; A[3] = a03; A[4] = a04; A[5] = a05;
+  A[6] = a01; A[7] = a11; A[8] = a12; A[9] = a13; A[10] = a14; A[11] = a15;
+  A[12] = a02; A[13] = a12; A[14] = a22; A[15] = a23; A[16] = a24; A[17] = a25;
+  A[18] = a03; A[19] = a13; A[20] = a23; A[21] = a33; A[22] = a34; A[23] = a35;
+  A[24] = a04; A[25] = a14; A[26] = a24; A[27] = a34; A[28] = a44; A[29] = a45;
+  A[30] = a05; A[31] = a15; A[32] = a25; A[33] = a35; A[34] = a45; A[35] = a55;
+  b[0] = b0; b[1] = b1; b[2] = b2; b[3] = b3; b[4] = b4; b[5] = b5;
+}
+
+/**
+ * In-place Cholesky of the n x n row-major matrix stored at M[off…]; lower
+ * triangle holds L afterwards. Returns the failing column or −1 (same
+ * algorithm as linalg/small.ts choleskyInPlace, with an offset so the flat
+ * per-block buffers need no subarray views).
+ */
+function choleskyAt(M: Float64Array, off: number, n: number): number {
+  for (let j = 0; j < n; j++) {
+    let d = M[off + j * n + j]!;
+    for (let k = 0; k < j; k++) d -= M[off + j * n + k]! * M[off + j * n + k]!;
+    if (!(d > 0)) return j;
+    const ljj = Math.sqrt(d);
+    M[off + j * n + j] = ljj;
+    for (let i = j + 1; i < n; i++) {
+      let s = M[off + i * n + j]!;
+      for (let k = 0; k < j; k++) s -= M[off + i * n + k]! * M[off + j * n + k]!;
+      M[off + i * n + j] = s / ljj;
+    }
+  }
+  return -1;
+}
+
+/** Solves L Lᵀ X = B in place for B (n x w, row-major, rows of length w), L at M[off…]. */
+function solveRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w: number): void {
+  for (let i = 0; i < n; i++) {
+    const bi = i * w;
+    for (let k = 0; k < i; k++) {
+      const l = M[off + i * n + k]!;
+      if (l === 0) continue;
+      const bk = k * w;
+      for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! - l * B[bk + v]!;
+    }
+    const inv = 1 / M[off + i * n + i]!;
+    for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! * inv;
+  }
+  for (let i = n - 1; i >= 0; i--) {
+    const bi = i * w;
+    for (let k = i + 1; k < n; k++) {
+      const l = M[off + k * n + i]!;
+      if (l === 0) continue;
+      const bk = k * w;
+      for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! - l * B[bk + v]!;
+    }
+    const inv = 1 / M[off + i * n + i]!;
+    for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! * inv;
+  }
+}
+
+/**
+ * P = X Y (W x W, upper triangle), then S[idx_a, idx_v] −= P_av for v ≥ a.
+ * X is W x te, Y is te x W; idx is ascending so only S's upper triangle is written.
+ */
+function schurSubtract(X: Float64Array, Y: Float64Array, P: Float64Array, S: Float64Array, idx: Int32Array, W: number, te: number, nc: number): void {
+  for (let a = 0; a < W; a++) {
+    const rowS = idx[a]! * nc;
+    const pa = a * W;
+    for (let v = a; v < W; v++) P[pa + v] = 0;
+    for (let u = 0; u < te; u++) {
+      const xa = X[a * te + u]!;
+      if (xa === 0) continue;
+      const yu = u * W;
+      for (let v = a; v < W; v++) P[pa + v] = P[pa + v]! + xa * Y[yu + v]!;
+    }
+    for (let v = a; v < W; v++) S[rowS + idx[v]!] = S[rowS + idx[v]!]! - P[pa + v]!;
+  }
+}
+
+export class NormalEquations {
+  readonly layout: ProblemLayout;
+  /** ½ Σ ρ at the last linearize()/evaluateCost(). */
+  cost = 0;
+  /** Gradient g = J̃ᵀr̃ over the global tangent vector (length N). */
+  readonly g: Float64Array;
+  /** Diagonal of the undamped H over the global tangent vector. */
+  readonly diag: Float64Array;
+  readonly Hcc: Float64Array;
+  readonly Hee: Float64Array;
+  readonly Hec: Float64Array;
+  /** Reduced matrix S and right-hand side after reduce(); S holds its Cholesky factor after factor(). */
+  readonly S: Float64Array;
+  readonly rhs: Float64Array;
+  /** Per-eliminated-block Cholesky factors of H_ee + λD_e from the last reduce(). */
+  private readonly Lee: Float64Array;
+  private readonly r: Float64Array;
+  private readonly J: Float64Array;
+  private readonly A: Float64Array;
+  private readonly b: Float64Array;
+  private readonly Tl: Float64Array[];
+  private readonly JT: Float64Array;
+  private readonly B: Float64Array;
+  private readonly gk: Float64Array;
+  private readonly z: Float64Array;
+  private readonly Y: Float64Array;
+  private readonly X: Float64Array;
+  private readonly P: Float64Array;
+  /** Per eliminated block: global kept column of each stacked coupling column. */
+  private readonly stackIndex: Int32Array[];
+  private readonly rho = new Float64Array(3);
+  private readonly mapViews: Float64Array[][];
+  private readonly rViews: Float64Array[];
+  private readonly jViews: Float64Array[];
+
+  constructor(readonly problem: Problem) {
+    const L = problem.layout();
+    this.layout = L;
+    const N = L.numTangent;
+    const nc = L.numKept;
+    this.g = new Float64Array(N);
+    this.diag = new Float64Array(N);
+    this.Hcc = new Float64Array(nc * nc);
+    this.S = new Float64Array(nc * nc);
+    this.rhs = new Float64Array(nc);
+    this.Hee = new Float64Array(L.heeTotal);
+    this.Lee = new Float64Array(L.heeTotal);
+    this.Hec = new Float64Array(L.hecTotal);
+    const p = L.maxInner;
+    const t = L.maxTangent;
+    this.r = new Float64Array(L.maxResiduals);
+    this.J = new Float64Array(L.maxResiduals * p);
+    this.JT = new Float64Array(L.maxResiduals * p);
+    this.A = new Float64Array(p * p);
+    this.b = new Float64Array(p);
+    this.B = new Float64Array(t * t);
+    this.gk = new Float64Array(t);
+    this.z = new Float64Array(t);
+    this.Y = new Float64Array(t * L.maxCouplingWidth);
+    this.X = new Float64Array(t * L.maxCouplingWidth);
+    this.P = new Float64Array(L.maxCouplingWidth * L.maxCouplingWidth);
+    this.stackIndex = L.couplings.map((cs) => {
+      const out: number[] = [];
+      for (const c of cs) {
+        const o = L.globalOffset[c]!;
+        for (let v = 0; v < problem.parameterBlock(c).tangentSize; v++) out.push(o + v);
+      }
+      return Int32Array.from(out);
+    });
+    // Views sized exactly per residual block, created once so evaluation allocates nothing.
+    let maxArity = 0;
+    for (let i = 0; i < problem.numResidualBlocks; i++) maxArity = Math.max(maxArity, problem.residualBlock(i).parameterBlocks.length);
+    const mapScratch = Array.from({ length: maxArity }, () => new Float64Array(p * t));
+    this.Tl = Array.from({ length: maxArity }, () => new Float64Array(p * t));
+    this.mapViews = [];
+    this.rViews = [];
+    this.jViews = [];
+    for (let i = 0; i < problem.numResidualBlocks; i++) {
+      const rb = problem.residualBlock(i);
+      this.rViews.push(this.r.subarray(0, rb.numResiduals));
+      this.jViews.push(this.J.subarray(0, rb.numResiduals * rb.innerSize));
+      this.mapViews.push(
+        rb.mapped
+          ? rb.parameterBlocks.map((pb, k) => mapScratch[k]!.subarray(0, rb.innerSize * problem.parameterBlock(pb).tangentSize))
+          : [],
+      );
+    }
+  }
+
+  /**
+   * Cost ½ Σ_g ρ(‖r_g‖²) at the current values, residuals only. Returns the
+   * failing residual block when an evaluate() call returns false or a
+   * non-finite residual.
+   */
+  evaluateCost(): EvaluationStatus {
+    const pr = this.problem;
+    let cost = 0;
+    const rho = this.rho;
+    for (let i = 0; i < pr.numResidualBlocks; i++) {
+      const rb = pr.residualBlock(i);
+      const r = this.rViews[i]!;
+      if (!rb.evaluate(pr.residualParams(i), r, null, null)) return { ok: false, residualBlock: i };
+      const m = rb.numResiduals;
+      cost += groupCost(r, m, rb.lossGroupSize ?? m, rb.loss, rho);
+    }
+    if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
+    this.cost = cost;
+    return { ok: true };
+  }
+
+  /** Evaluates residuals and Jacobians and assembles H, g (see file comment). */
+  linearize(): EvaluationStatus {
+    const pr = this.problem;
+    const L = this.layout;
+    const nc = L.numKept;
+    this.g.fill(0);
+    this.Hcc.fill(0);
+    this.Hee.fill(0);
+    this.Hec.fill(0);
+    const A = this.A;
+    const bv = this.b;
+    const rho = this.rho;
+    let cost = 0;
+    for (let i = 0; i < pr.numResidualBlocks; i++) {
+      const rb = pr.residualBlock(i);
+      const r = this.rViews[i]!;
+      const J = this.jViews[i]!;
+      const maps = rb.mapped ? this.mapViews[i]! : null;
+      if (!rb.evaluate(pr.residualParams(i), r, J, maps)) return { ok: false, residualBlock: i };
+      const m = rb.numResiduals;
+      const p = rb.innerSize;
+      const gs = rb.lossGroupSize ?? m;
+      const loss = rb.loss;
+      if (loss) cost += weightGroups(r, J, m, p, gs, loss, rho);
+      else {
+        let ss = 0;
+        for (let q = 0; q < m; q++) ss += r[q]! * r[q]!;
+        cost += 0.5 * ss;
+      }
+      if (p === 6) normal6(J, r, m, A, bv);
+      else normalGeneric(J, r, m, p, A, bv, this.JT);
+      this.scatter(i, rb.parameterBlocks, p, maps, nc);
+    }
+    if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
+    this.cost = cost;
+    this.applyFixedAndDiagonal();
+    return { ok: true };
+  }
+
+  /** H_kl += M_kᵀ A M_l and g_k += M_kᵀ b for the positions of residual block i. */
+  private scatter(i: number, ps: readonly number[], p: number, maps: Float64Array[] | null, nc: number): void {
+    const L = this.layout;
+    const pr = this.problem;
+    const kinds = L.posKind[i]!;
+    const cols = L.posColumn[i]!;
+    const hecs = L.posHec[i]!;
+    const A = this.A;
+    const b = this.b;
+    const B = this.B;
+    const gk = this.gk;
+    const g = this.g;
+    const Tl = this.Tl;
+    const n = ps.length;
+    // T_l = A M_l (p x t_l), once per position.
+    if (maps) {
+      for (let l = 0; l < n; l++) {
+        if (kinds[l] === POS_CONSTANT) continue;
+        const tl = pr.parameterBlock(ps[l]!).tangentSize;
+        const Ml = maps[l]!;
+        const T = Tl[l]!;
+        T.fill(0, 0, p * tl);
+        // Skip the all-zero rows of M_l (common: a block enters only some inner coordinates).
+        for (let c = 0; c < p; c++) {
+          const rowM = c * tl;
+          let nz = false;
+          for (let v = 0; v < tl; v++) if (Ml[rowM + v] !== 0) { nz = true; break; }
+          if (!nz) continue;
+          for (let a = 0; a < p; a++) {
+            const ac = A[a * p + c]!;
+            if (ac === 0) continue;
+            const rowT = a * tl;
+            for (let v = 0; v < tl; v++) T[rowT + v] = T[rowT + v]! + ac * Ml[rowM + v]!;
+          }
+        }
+      }
+    }
+    for (let k = 0; k < n; k++) {
+      const kk = kinds[k]!;
+      if (kk === POS_CONSTANT) continue;
+      const bk = ps[k]!;
+      const tk = pr.parameterBlock(bk).tangentSize;
+      const Mk = maps ? maps[k]! : null;
+      const ck = cols[k]!;
+      // Gradient: g_k += M_kᵀ b.
+      if (Mk) {
+        gk.fill(0, 0, tk);
+        for (let a = 0; a < p; a++) {
+          const ba = b[a]!;
+          if (ba === 0) continue;
+          const row = a * tk;
+          for (let u = 0; u < tk; u++) gk[u] = gk[u]! + Mk[row + u]! * ba;
+        }
+      } else for (let u = 0; u < tk; u++) gk[u] = b[ck + u]!;
+      const gOff = L.globalOffset[bk]!;
+      for (let u = 0; u < tk; u++) g[gOff + u] = g[gOff + u]! + gk[u]!;
+      for (let l = 0; l < n; l++) {
+        const kl = kinds[l]!;
+        if (kl === POS_CONSTANT) continue;
+        // Only H_ec (eliminated rows, kept columns) is stored, not its transpose.
+        if (kk === POS_KEPT && kl === POS_ELIMINATED) continue;
+        const bl = ps[l]!;
+        const tl = pr.parameterBlock(bl).tangentSize;
+        // Destination.
+        let dest: Float64Array;
+        let off: number;
+        let stride: number;
+        if (kk === POS_KEPT && kl === POS_KEPT) {
+          dest = this.Hcc;
+          off = L.globalOffset[bk]! * nc + L.globalOffset[bl]!;
+          stride = nc;
+        } else if (kk === POS_ELIMINATED && kl === POS_ELIMINATED) {
+          dest = this.Hee;
+          off = L.heeOffset[L.elimIndex[bk]!]!;
+          stride = tk;
+        } else {
+          dest = this.Hec;
+          off = hecs[l]!;
+          stride = tl;
+        }
+        if (Mk) {
+          // B = M_kᵀ T_l (tk x tl)
+          const T = Tl[l]!;
+          B.fill(0, 0, tk * tl);
+          for (let a = 0; a < p; a++) {
+            const rowM = a * tk;
+            const rowT = a * tl;
+            for (let u = 0; u < tk; u++) {
+              const mu = Mk[rowM + u]!;
+              if (mu === 0) continue;
+              const rowB = u * tl;
+              for (let v = 0; v < tl; v++) B[rowB + v] = B[rowB + v]! + mu * T[rowT + v]!;
+            }
+          }
+          for (let u = 0; u < tk; u++) {
+            const rowD = off + u * stride;
+            const rowB = u * tl;
+            for (let v = 0; v < tl; v++) dest[rowD + v] = dest[rowD + v]! + B[rowB + v]!;
+          }
+        } else {
+          const cl = cols[l]!;
+          for (let u = 0; u < tk; u++) {
+            const rowD = off + u * stride;
+            const rowA = (ck + u) * p + cl;
+            for (let v = 0; v < tl; v++) dest[rowD + v] = dest[rowD + v]! + A[rowA + v]!;
+          }
+        }
+      }
+    }
+  }
+
+  /** Zeroes fixed coordinates (unit diagonal) and records diag(H). */
+  private applyFixedAndDiagonal(): void {
+    const pr = this.problem;
+    const L = this.layout;
+    const nc = L.numKept;
+    for (const id of L.keptBlocks) {
+      const blk = pr.parameterBlock(id);
+      const o = L.globalOffset[id]!;
+      for (const f of blk.fixedTangentIndices) {
+        const gi = o + f;
+        this.g[gi] = 0;
+        for (let j = 0; j < nc; j++) {
+          this.Hcc[gi * nc + j] = 0;
+          this.Hcc[j * nc + gi] = 0;
+        }
+        this.Hcc[gi * nc + gi] = 1;
+      }
+    }
+    L.elimBlocks.forEach((id, ei) => {
+      const blk = pr.parameterBlock(id);
+      const te = blk.tangentSize;
+      const ho = L.heeOffset[ei]!;
+      const couplings = L.couplings[ei]!;
+      const offs = L.hecOffsets[ei]!;
+      for (const f of blk.fixedTangentIndices) {
+        this.g[L.globalOffset[id]! + f] = 0;
+        for (let j = 0; j < te; j++) {
+          this.Hee[ho + f * te + j] = 0;
+          this.Hee[ho + j * te + f] = 0;
+        }
+        this.Hee[ho + f * te + f] = 1;
+        for (let j = 0; j < couplings.length; j++) {
+          const tc = pr.parameterBlock(couplings[j]!).tangentSize;
+          this.Hec.fill(0, offs[j]! + f * tc, offs[j]! + (f + 1) * tc);
+        }
+      }
+      // Kept blocks' fixed columns inside H_ec.
+      for (let j = 0; j < couplings.length; j++) {
+        const c = pr.parameterBlock(couplings[j]!);
+        if (c.fixedTangentIndices.length === 0) continue;
+        const tc = c.tangentSize;
+        for (let u = 0; u < te; u++) for (const f of c.fixedTangentIndices) this.Hec[offs[j]! + u * tc + f] = 0;
+      }
+      for (let u = 0; u < te; u++) this.diag[L.globalOffset[id]! + u] = this.Hee[ho + u * te + u]!;
+    });
+    for (let i = 0; i < nc; i++) this.diag[i] = this.Hcc[i * nc + i]!;
+  }
+
+  /**
+   * Forms the reduced system S, rhs for damping λ·D (D over the global tangent
+   * vector; pass λ = 0 for the undamped information matrix). Leaves the
+   * factors of every H_ee + λD_e for backSubstitute().
+   */
+  reduce(lambda: number, D: Float64Array): LinearSolveStatus {
+    const pr = this.problem;
+    const L = this.layout;
+    const nc = L.numKept;
+    const S = this.S;
+    const rhs = this.rhs;
+    const g = this.g;
+    const Hec = this.Hec;
+    const Hee = this.Hee;
+    const Lee = this.Lee;
+    S.set(this.Hcc);
+    for (let i = 0; i < nc; i++) {
+      S[i * nc + i] = S[i * nc + i]! + lambda * D[i]!;
+      rhs[i] = -g[i]!;
+    }
+    const z = this.z;
+    const Y = this.Y;
+    const X = this.X;
+    const P = this.P;
+    for (let ei = 0; ei < L.elimBlocks.length; ei++) {
+      const id = L.elimBlocks[ei]!;
+      const te = pr.parameterBlock(id).tangentSize;
+      const ho = L.heeOffset[ei]!;
+      const go = L.globalOffset[id]!;
+      // Factor H_ee + λD_e into Lee (lower triangle).
+      for (let k = 0; k < te * te; k++) Lee[ho + k] = Hee[ho + k]!;
+      for (let u = 0; u < te; u++) Lee[ho + u * te + u] = Lee[ho + u * te + u]! + lambda * D[go + u]!;
+      const col = choleskyAt(Lee, ho, te);
+      if (col >= 0) return { ok: false, reason: 'eliminated_block_not_positive_definite', blockId: id, column: col };
+      // z = (H_ee + λD_e)⁻¹ g_e
+      for (let u = 0; u < te; u++) z[u] = g[go + u]!;
+      solveRowsAt(Lee, ho, te, z, 1);
+      // Stacked couplings: Y = [H_ec_1 … H_ec_n] (te x W), X = Yᵀ (W x te), idx = global column of each stacked column.
+      const idx = this.stackIndex[ei]!;
+      const W = idx.length;
+      if (W === 0) continue;
+      const couplings = L.couplings[ei]!;
+      const offs = L.hecOffsets[ei]!;
+      let yOff = 0;
+      for (let j = 0; j < couplings.length; j++) {
+        const tc = pr.parameterBlock(couplings[j]!).tangentSize;
+        const h = offs[j]!;
+        for (let u = 0; u < te; u++) {
+          for (let v = 0; v < tc; v++) {
+            const val = Hec[h + u * tc + v]!;
+            Y[u * W + yOff + v] = val;
+            X[(yOff + v) * te + u] = val;
+          }
+        }
+        yOff += tc;
+      }
+      // rhs_c += H_ecᵀ z
+      for (let a = 0; a < W; a++) {
+        let sum = 0;
+        for (let u = 0; u < te; u++) sum += X[a * te + u]! * z[u]!;
+        rhs[idx[a]!] = rhs[idx[a]!]! + sum;
+      }
+      // Y ← (H_ee + λD_e)⁻¹ Y, row operations on all W columns at once.
+      solveRowsAt(Lee, ho, te, Y, W);
+      schurSubtract(X, Y, P, S, idx, W, te, nc);
+    }
+    // Mirror the upper triangle into the lower one (used by the Cholesky).
+    for (let r = 1; r < nc; r++) for (let c = 0; c < r; c++) S[r * nc + c] = S[c * nc + r]!;
+    return { ok: true };
+  }
+
+  /**
+   * Solves the damped system (H + λD) δ = −g into `delta` (global tangent
+   * vector). A non-positive-definite matrix is reported as a status.
+   */
+  solve(lambda: number, D: Float64Array, delta: Float64Array): LinearSolveStatus {
+    const st = this.reduce(lambda, D);
+    if (!st.ok) return st;
+    const L = this.layout;
+    const nc = L.numKept;
+    if (nc > 0) {
+      const col = choleskyInPlace(this.S, nc);
+      if (col >= 0) return { ok: false, reason: 'reduced_system_not_positive_definite', column: col };
+      choleskySolveInPlace(this.S, nc, this.rhs);
+    }
+    delta.set(this.rhs.subarray(0, nc), 0);
+    this.backSubstitute(delta);
+    // Fixed coordinates are exactly zero by construction; enforce it against round-off.
+    const pr = this.problem;
+    for (let id = 0; id < pr.numParameterBlocks; id++) {
+      const o = L.globalOffset[id]!;
+      if (o < 0) continue;
+      for (const f of pr.parameterBlock(id).fixedTangentIndices) delta[o + f] = 0;
+    }
+    return { ok: true };
+  }
+
+  /** δ_e = (H_ee + λD_e)⁻¹ (−g_e − H_ec δ_c), using the factors from reduce(). */
+  private backSubstitute(delta: Float64Array): void {
+    const pr = this.problem;
+    const L = this.layout;
+    const w = this.z;
+    for (let ei = 0; ei < L.elimBlocks.length; ei++) {
+      const id = L.elimBlocks[ei]!;
+      const te = pr.parameterBlock(id).tangentSize;
+      const go = L.globalOffset[id]!;
+      const ho = L.heeOffset[ei]!;
+      for (let u = 0; u < te; u++) w[u] = -this.g[go + u]!;
+      const couplings = L.couplings[ei]!;
+      const offs = L.hecOffsets[ei]!;
+      for (let j = 0; j < couplings.length; j++) {
+        const c = couplings[j]!;
+        const tc = pr.parameterBlock(c).tangentSize;
+        const oc = L.globalOffset[c]!;
+        const h = offs[j]!;
+        for (let u = 0; u < te; u++) {
+          let s = 0;
+          for (let v = 0; v < tc; v++) s += this.Hec[h + u * tc + v]! * delta[oc + v]!;
+          w[u] = w[u]! - s;
+        }
+      }
+      solveRowsAt(this.Lee, ho, te, w, 1);
+      for (let u = 0; u < te; u++) delta[go + u] = w[u]!;
+    }
+  }
+}
