@@ -100,7 +100,7 @@ export function rigFileToYaml(rig: RigFile): string {
       if (node.items.length > 0 && node.items.every((it) => isScalar(it))) node.flow = true;
     },
   });
-  return doc.toString({ lineWidth: 0 });
+  return doc.toString({ lineWidth: 0, flowCollectionPadding: false });
 }
 
 /**
@@ -143,6 +143,21 @@ export function loadRigFileCollect(path: string, issues: IssueCollector): RigFil
   const before = issues.total;
   if (data === null || typeof data !== 'object' || Array.isArray(data)) {
     issues.add({ file: path, line: 1, message: `expected a mapping of rig fields, found ${describeValue(data)}`, hint: `a rig file starts with "format: ${RIG_FORMAT}"` });
+    return undefined;
+  }
+  if (data.format !== RIG_FORMAT) {
+    const fmt = data.format;
+    issues.add(
+      src.issueAt(
+        ['format'],
+        fmt === undefined ? 'missing required field "format"' : `unknown format ${describeValue(fmt)}, expected "${RIG_FORMAT}"`,
+        typeof fmt === 'string' && fmt.startsWith('rig-session/')
+          ? 'this is a session (input) file; pass a rig file instead'
+          : typeof fmt === 'string' && fmt.startsWith('rig-calibration/')
+            ? `this version of rigsolve reads ${RIG_FORMAT}; use a matching rigsolve version`
+            : `a rig file starts with "format: ${RIG_FORMAT}"`,
+      ),
+    );
     return undefined;
   }
   const parsed = rigFileSchema.safeParse(data, { reportInput: true });

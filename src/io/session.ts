@@ -81,6 +81,8 @@ export function loadSessionCollect(path: string, issues: IssueCollector): Sessio
     issues.add(
       src.issueAt(['format'], fmt === undefined ? 'missing required field "format"' : `unknown format ${describeValue(fmt)}, expected "${SESSION_FORMAT}"`, hint),
     );
+    // Another format or version: its other fields would only produce noise.
+    if (fmt !== undefined) return undefined;
   }
 
   const parsed = sessionSchema.safeParse(data, { reportInput: true });

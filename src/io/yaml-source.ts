@@ -187,7 +187,7 @@ export function parseYaml(file: string, text: string, issues: IssueCollector): Y
   let bad = false;
   for (const e of doc.errors) {
     bad = true;
-    const line = e.linePos?.[0]?.line;
+    const line = e.linePos?.[0]?.line ?? (e.pos ? lineCounter.linePos(e.pos[0]).line : undefined);
     const first = e.message.split('\n')[0]!.replace(/ at line \d+, column \d+:?$/, '');
     const issue: InputIssue = { file, message: `YAML syntax: ${first}`, hint: yamlHint(e.code) };
     if (line !== undefined) issue.line = line;
@@ -312,6 +312,9 @@ export function zodIssuesToInput(
 }
 
 function suggestionOrList(key: string, known: readonly string[]): string {
+  // A known key that the unknown one starts with (focal_length → focal) is the likeliest intent.
+  const prefix = known.filter((k) => key.toLowerCase().startsWith(k.toLowerCase())).sort((a, b) => b.length - a.length)[0];
+  if (prefix !== undefined) return `did you mean "${prefix}"?`;
   const d = didYouMean(key, known, 'one of the keys');
   return d.startsWith('did you mean') ? d : `remove it; allowed keys here: ${known.join(', ')}`;
 }
