@@ -103,7 +103,9 @@ export function parseDetections(
   for (const t of ctx.targets) if (t.numPoints !== undefined && t.numPoints > maxPoints) maxPoints = t.numPoints;
   // Point ids beyond any target are rejected before keying, so this stride is collision-free.
   const pointStride = ctx.targets.every((t) => t.numPoints !== undefined) ? maxPoints : 1 << 24;
-  const seen = new Map<number, number>();
+  // Duplicate check: one integer key per accepted row, sorted once at the end
+  // (a hash table with 500k entries spends its time in cache misses).
+  const keyCol = new Float64Array(cap);
   const unknownCameraReported = new Set<string>();
   const unknownTargetReported = new Set<string>();
 
@@ -125,18 +127,40 @@ export function parseDetections(
   let headerSeen = false;
   let headerOk = false;
 
-  const fields: string[] = [];
+  // Fields of the current record as [start, end) offsets into `text`; a quoted
+  // field's unescaped text is kept in `quoted[k]` instead. Fields past
+  // MAX_FIELDS are only counted (such a row is an error anyway).
+  const MAX_FIELDS = 64;
+  const fStart = new Int32Array(MAX_FIELDS);
+  const fEnd = new Int32Array(MAX_FIELDS);
+  const quoted: (string | undefined)[] = new Array<string | undefined>(MAX_FIELDS).fill(undefined);
+  let nFields = 0;
+  let anyQuoted = false;
+  const field = (k: number): string => quoted[k] ?? text.slice(fStart[k]!, fEnd[k]!);
+
+  // Last names seen: rows usually repeat the previous frame/camera/target,
+  // and comparing in place avoids a substring and a hash lookup per row.
+  let lastFrame = '';
+  let lastFrameIdx = -1;
+  let lastCam = '';
+  let lastCamIdx = -1;
+  let lastTgt = '';
+  let lastTgtIdx = -1;
+
   let i = 0;
   let line = 1;
   while (i < n) {
     const recordLine = line;
-    fields.length = 0;
-    let quotedAny = false;
+    if (anyQuoted) {
+      quoted.fill(undefined);
+      anyQuoted = false;
+    }
+    nFields = 0;
     // Scan one record.
     for (;;) {
-      let field: string;
+      let s0: number;
+      let e0: number;
       if (text.charCodeAt(i) === QUOTE) {
-        quotedAny = true;
         i++;
         let start = i;
         let buf = '';
@@ -162,7 +186,6 @@ export function parseDetections(
           buf += text.slice(start, i);
           add(recordLine, 'a quoted field is never closed', 'add the closing double quote (write "" for a quote inside a field)');
         }
-        field = buf;
         // Anything between the closing quote and the next separator is malformed.
         const s2 = i;
         while (i < n) {
@@ -173,16 +196,26 @@ export function parseDetections(
         if (i > s2) {
           add(line, `unexpected text ${describeValue(text.slice(s2, i))} after a closing quote`, 'quote the whole field, and write "" for a quote inside it');
         }
+        if (nFields < MAX_FIELDS) {
+          quoted[nFields] = buf;
+          anyQuoted = true;
+        }
+        s0 = s2;
+        e0 = s2;
       } else {
-        const start = i;
+        s0 = i;
         while (i < n) {
           const c = text.charCodeAt(i);
           if (c === COMMA || c === LF || c === CR) break;
           i++;
         }
-        field = text.slice(start, i);
+        e0 = i;
       }
-      fields.push(field);
+      if (nFields < MAX_FIELDS) {
+        fStart[nFields] = s0;
+        fEnd[nFields] = e0;
+      }
+      nFields++;
       const c = text.charCodeAt(i);
       if (c === COMMA) {
         i++;
@@ -200,19 +233,23 @@ export function parseDetections(
     }
 
     // Blank (or whitespace-only) lines are ignored anywhere, including at the end.
-    if (fields.length === 1 && !quotedAny && fields[0]!.trim() === '') continue;
+    if (nFields === 1 && !anyQuoted && isBlank(text, fStart[0]!, fEnd[0]!)) continue;
 
     if (!headerSeen) {
       headerSeen = true;
-      numColumns = fields.length;
+      numColumns = nFields;
       const seenCols = new Map<string, number>();
       let ok = true;
-      fields.forEach((raw, k) => {
-        const name = raw.trim();
+      if (nFields > MAX_FIELDS) {
+        add(recordLine, `the header has ${nFields} columns`, `the header must name ${REQUIRED_COLUMNS.join(',')} (and optionally sigma), in any order`);
+        ok = false;
+      }
+      for (let k = 0; k < Math.min(nFields, MAX_FIELDS); k++) {
+        const name = field(k).trim();
         if (seenCols.has(name)) {
           add(recordLine, `column "${name}" appears twice in the header`, 'keep one column of each name');
           ok = false;
-          return;
+          continue;
         }
         seenCols.set(name, k);
         if (!ALL_COLUMNS.includes(name)) {
@@ -223,7 +260,7 @@ export function parseDetections(
           add(recordLine, name === '' ? `header column ${k + 1} is empty` : `unknown column "${name}" in the header`, hint);
           ok = false;
         }
-      });
+      }
       for (const req of REQUIRED_COLUMNS) {
         if (!seenCols.has(req)) {
           add(recordLine, `required column "${req}" is missing from the header`, `the header must name ${REQUIRED_COLUMNS.join(',')} (and optionally sigma), in any order`);
@@ -242,70 +279,114 @@ export function parseDetections(
     }
     if (!headerOk) continue;
 
-    if (fields.length !== numColumns) {
-      add(recordLine, `expected ${numColumns} fields (as in the header), found ${fields.length}`, fields.length > numColumns ? 'remove the extra commas, or quote fields that contain commas' : 'fill in the missing fields');
+    if (nFields !== numColumns) {
+      add(recordLine, `expected ${numColumns} fields (as in the header), found ${nFields}`, nFields > numColumns ? 'remove the extra commas, or quote fields that contain commas' : 'fill in the missing fields');
       continue;
     }
 
     let rowOk = true;
-    const frameId = fields[colFrame]!;
-    if (frameId.trim() === '') {
-      add(recordLine, 'frame id is empty', 'give every row a frame id');
-      rowOk = false;
-    }
-    const camName = fields[colCamera]!;
-    const cam = cameraIndex.get(camName);
-    if (cam === undefined) {
-      rowOk = false;
-      if (!unknownCameraReported.has(camName)) {
-        unknownCameraReported.add(camName);
-        add(recordLine, `camera ${describeValue(camName)} is not in the session (first of its rows)`, didYouMean(camName, cameraNames, 'a camera from the session:'));
-      } else issues.total++;
-    }
-    const tgtName = fields[colTarget]!;
-    const tgt = targetIndex.get(tgtName);
-    if (tgt === undefined) {
-      rowOk = false;
-      if (!unknownTargetReported.has(tgtName)) {
-        unknownTargetReported.add(tgtName);
-        add(recordLine, `target ${describeValue(tgtName)} is not in the session (first of its rows)`, didYouMean(tgtName, targetNames, 'a target from the session:'));
-      } else issues.total++;
+
+    // Frame id (text).
+    let f: number;
+    let frameId: string;
+    {
+      const s0 = fStart[colFrame]!;
+      const len = fEnd[colFrame]! - s0;
+      if (quoted[colFrame] === undefined && lastFrameIdx >= 0 && len === lastFrame.length && text.startsWith(lastFrame, s0)) {
+        frameId = lastFrame;
+        f = lastFrameIdx;
+      } else {
+        frameId = field(colFrame);
+        f = frameIndex.get(frameId) ?? -1;
+        if (frameId.trim() === '') {
+          add(recordLine, 'frame id is empty', 'give every row a frame id');
+          rowOk = false;
+        }
+      }
     }
 
-    const pointStr = fields[colPoint]!;
-    const point = parseIntField(pointStr);
-    if (point === undefined) {
-      add(recordLine, `point id ${describeValue(pointStr)} is not a non-negative integer`, 'point ids are integers: row*columns + column for checkerboards, the list index for point targets');
+    // Camera.
+    let cam: number;
+    {
+      const s0 = fStart[colCamera]!;
+      const len = fEnd[colCamera]! - s0;
+      if (quoted[colCamera] === undefined && lastCamIdx >= 0 && len === lastCam.length && text.startsWith(lastCam, s0)) {
+        cam = lastCamIdx;
+      } else {
+        const camName = field(colCamera);
+        cam = cameraIndex.get(camName) ?? -1;
+        if (cam < 0) {
+          rowOk = false;
+          if (!unknownCameraReported.has(camName)) {
+            unknownCameraReported.add(camName);
+            add(recordLine, `camera ${describeValue(camName)} is not in the session (first of its rows)`, didYouMean(camName, cameraNames, 'a camera from the session:'));
+          } else issues.total++;
+        } else {
+          lastCam = camName;
+          lastCamIdx = cam;
+        }
+      }
+    }
+
+    // Target.
+    let tgt: number;
+    {
+      const s0 = fStart[colTarget]!;
+      const len = fEnd[colTarget]! - s0;
+      if (quoted[colTarget] === undefined && lastTgtIdx >= 0 && len === lastTgt.length && text.startsWith(lastTgt, s0)) {
+        tgt = lastTgtIdx;
+      } else {
+        const tgtName = field(colTarget);
+        tgt = targetIndex.get(tgtName) ?? -1;
+        if (tgt < 0) {
+          rowOk = false;
+          if (!unknownTargetReported.has(tgtName)) {
+            unknownTargetReported.add(tgtName);
+            add(recordLine, `target ${describeValue(tgtName)} is not in the session (first of its rows)`, didYouMean(tgtName, targetNames, 'a target from the session:'));
+          } else issues.total++;
+        } else {
+          lastTgt = tgtName;
+          lastTgtIdx = tgt;
+        }
+      }
+    }
+
+    // Point id.
+    const point = quoted[colPoint] === undefined ? parseIntAt(text, fStart[colPoint]!, fEnd[colPoint]!) : parseIntField(quoted[colPoint]!);
+    if (point < 0) {
+      add(recordLine, `point id ${describeValue(field(colPoint))} is not a non-negative integer`, 'point ids are integers: row*columns + column for checkerboards, the list index for point targets');
       rowOk = false;
-    } else if (tgt !== undefined) {
+    } else if (tgt >= 0) {
       const np = ctx.targets[tgt]!.numPoints;
       if (np !== undefined && point >= np) {
-        add(recordLine, `point id ${point} is out of range for target "${tgtName}" (ids 0..${np - 1})`, 'check the target definition (inner_corners counts inner corners, not squares) or the point ids');
+        add(recordLine, `point id ${point} is out of range for target "${ctx.targets[tgt]!.name}" (ids 0..${np - 1})`, 'check the target definition (inner_corners counts inner corners, not squares) or the point ids');
         rowOk = false;
       }
     }
 
-    const u = parseNumberField(fields[colU]!);
-    const v = parseNumberField(fields[colV]!);
+    // Pixel.
+    const u = quoted[colU] === undefined ? parseNumberAt(text, fStart[colU]!, fEnd[colU]!) : parseNumberField(quoted[colU]!);
+    const v = quoted[colV] === undefined ? parseNumberAt(text, fStart[colV]!, fEnd[colV]!) : parseNumberField(quoted[colV]!);
     if (!Number.isFinite(u) || !Number.isFinite(v)) {
-      const bad = !Number.isFinite(u) ? `u = ${describeValue(fields[colU])}` : `v = ${describeValue(fields[colV])}`;
+      const bad = !Number.isFinite(u) ? `u = ${describeValue(field(colU))}` : `v = ${describeValue(field(colV))}`;
       add(recordLine, `${bad} is not a finite number`, 'write pixel positions as plain decimal numbers; drop rows without a detection');
       rowOk = false;
-    } else if (cam !== undefined) {
+    } else if (cam >= 0) {
       const res = ctx.cameras[cam]!.resolution;
       if (res && (u < -0.5 || u > res[0] - 0.5 || v < -0.5 || v > res[1] - 0.5)) {
-        add(recordLine, `pixel (${u}, ${v}) is outside camera "${camName}"'s ${res[0]}x${res[1]} image [-0.5, ${res[0] - 0.5}] x [-0.5, ${res[1] - 0.5}]`, "check the camera's resolution in the session, and that u is the column and v the row");
+        add(recordLine, `pixel (${u}, ${v}) is outside camera "${ctx.cameras[cam]!.name}"'s ${res[0]}x${res[1]} image [-0.5, ${res[0] - 0.5}] x [-0.5, ${res[1] - 0.5}]`, "check the camera's resolution in the session, and that u is the column and v the row");
         rowOk = false;
       }
     }
 
     let sigma = NaN;
     if (colSigma >= 0) {
-      const s = fields[colSigma]!;
-      if (s.trim() !== '') {
-        sigma = parseNumberField(s);
+      const qs = quoted[colSigma];
+      const blank = qs === undefined ? isBlank(text, fStart[colSigma]!, fEnd[colSigma]!) : qs.trim() === '';
+      if (!blank) {
+        sigma = qs === undefined ? parseNumberAt(text, fStart[colSigma]!, fEnd[colSigma]!) : parseNumberField(qs);
         if (!(sigma > 0) || !Number.isFinite(sigma)) {
-          add(recordLine, `sigma ${describeValue(s)} must be a finite number > 0 (px)`, "leave the cell empty to use the camera's pixel_sigma");
+          add(recordLine, `sigma ${describeValue(field(colSigma))} must be a finite number > 0 (px)`, "leave the cell empty to use the camera's pixel_sigma");
           rowOk = false;
         }
       }
@@ -313,31 +394,34 @@ export function parseDetections(
 
     if (!rowOk) continue;
 
-    let f = frameIndex.get(frameId);
-    if (f === undefined) {
+    if (f < 0) {
       f = frames.length;
       frameIndex.set(frameId, f);
       frames.push(frameId);
     }
-    const key = ((f * ctx.cameras.length + cam!) * ctx.targets.length + tgt!) * pointStride + point!;
-    const prev = seen.get(key);
-    if (prev !== undefined) {
-      add(recordLine, `duplicate detection: frame ${describeValue(frameId)}, camera "${camName}", target "${tgtName}", point ${point} also appears on line ${prev}`, 'keep one detection per point per image');
-      continue;
-    }
-    seen.set(key, recordLine);
-
+    lastFrame = frameId;
+    lastFrameIdx = f;
+    keyCol[count] = ((f * ctx.cameras.length + cam) * ctx.targets.length + tgt) * pointStride + point;
     frameCol[count] = f;
-    cameraCol[count] = cam!;
-    targetCol[count] = tgt!;
-    pointCol[count] = point!;
+    cameraCol[count] = cam;
+    targetCol[count] = tgt;
+    pointCol[count] = point;
     uCol[count] = u;
     vCol[count] = v;
     sigmaCol[count] = sigma;
     lineCol[count] = recordLine;
-    perCamera[cam!]!++;
+    perCamera[cam]!++;
     count++;
   }
+
+  count = reportDuplicates(
+    keyCol.subarray(0, count),
+    { frame: frameCol, camera: cameraCol, target: targetCol, point: pointCol, u: uCol, v: vCol, sigma: sigmaCol, line: lineCol },
+    perCamera,
+    frames,
+    ctx,
+    add,
+  );
 
   if (!headerSeen) {
     add(1, 'the detections file is empty', `write a header line (${REQUIRED_COLUMNS.join(',')}) followed by one row per detected point`);
@@ -369,30 +453,133 @@ export function parseDetections(
   return { table, frames, perCamera };
 }
 
-/** Non-negative integer (digits, optional surrounding spaces, or a float with zero fraction); undefined otherwise. */
-function parseIntField(s: string): number | undefined {
-  const n = s.length;
-  let v = 0;
-  let k = 0;
-  if (n > 0 && n < 10) {
-    for (; k < n; k++) {
-      const c = s.charCodeAt(k) - 48;
+/** True when text[s, e) is empty or only spaces/tabs. */
+function isBlank(text: string, s: number, e: number): boolean {
+  for (let k = s; k < e; k++) {
+    const c = text.charCodeAt(k);
+    if (c !== 32 && c !== 9) return false;
+  }
+  return true;
+}
+
+/** Non-negative integer in text[s, e) (plain digits fast path); -1 when it is not one. */
+function parseIntAt(text: string, s: number, e: number): number {
+  if (e > s && e - s < 10) {
+    let v = 0;
+    let k = s;
+    for (; k < e; k++) {
+      const c = text.charCodeAt(k) - 48;
       if (c < 0 || c > 9) break;
       v = v * 10 + c;
     }
-    if (k === n) return v;
+    if (k === e) return v;
   }
-  const t = s.trim();
-  if (t === '') return undefined;
-  const x = Number(t);
-  return Number.isInteger(x) && x >= 0 && x <= 0x7fffffff ? x : undefined;
+  return parseIntField(text.slice(s, e));
 }
 
-/** Decimal number; NaN for empty or malformed text (hex/binary forms rejected). */
+/** Non-negative integer (digits, optional surrounding spaces, or a float with zero fraction); -1 otherwise. */
+function parseIntField(str: string): number {
+  const t = str.trim();
+  if (t === '') return -1;
+  const x = Number(t);
+  return Number.isInteger(x) && x >= 0 && x <= 0x7fffffff ? x : -1;
+}
+
+/** Exact powers of ten (every 10^k with k <= 22 is a double). */
+const POW10 = Array.from({ length: 23 }, (_, k) => 10 ** k);
+
+/**
+ * Decimal number in text[s, e). Fast path for `[-+]digits[.digits]` with at
+ * most 15 significant digits: m / 10^k with m < 2^53 and 10^k exact is the
+ * correctly rounded value (one IEEE division), i.e. exactly what Number()
+ * returns. Everything else goes through Number().
+ */
+function parseNumberAt(text: string, s: number, e: number): number {
+  let k = s;
+  let neg = false;
+  const c0 = text.charCodeAt(k);
+  if (c0 === 45 || c0 === 43) {
+    neg = c0 === 45;
+    k++;
+  }
+  let m = 0;
+  let digits = 0;
+  let frac = -1;
+  let ok = k < e;
+  for (; k < e; k++) {
+    const c = text.charCodeAt(k);
+    if (c >= 48 && c <= 57) {
+      m = m * 10 + (c - 48);
+      digits++;
+      if (frac >= 0) frac++;
+    } else if (c === 46 && frac < 0) {
+      frac = 0;
+    } else {
+      ok = false;
+      break;
+    }
+  }
+  if (ok && digits > 0 && digits <= 15) {
+    const x = frac > 0 ? m / POW10[frac]! : m;
+    return neg ? -x : x;
+  }
+  return parseNumberField(text.slice(s, e));
+}
+
+/** Decimal number; NaN for empty or malformed text (hex/binary/octal forms rejected). */
 function parseNumberField(s: string): number {
-  const t = s.trim();
-  if (t === '') return NaN;
-  const c1 = t.charCodeAt(1);
-  if (t.charCodeAt(0) === 48 && (c1 === 120 || c1 === 88 || c1 === 98 || c1 === 66 || c1 === 111 || c1 === 79)) return NaN;
-  return Number(t);
+  if (s.length === 0) return NaN;
+  const x = Number(s); // Number() itself ignores surrounding white space
+  // Blank text reads as 0 and "0x10" as 16: only integer results need the slower look.
+  if (Number.isInteger(x)) {
+    const t = s.trim();
+    if (t === '') return NaN;
+    const c1 = t.charCodeAt(1);
+    if (t.charCodeAt(0) === 48 && (c1 === 120 || c1 === 88 || c1 === 98 || c1 === 66 || c1 === 111 || c1 === 79)) return NaN;
+  }
+  return x;
+}
+
+/**
+ * Finds rows with the same (frame, camera, target, point) key. Sorting a copy
+ * of the keys detects whether any exist; only then a Map pass names both
+ * lines of each duplicate. Later duplicates are removed from the columns
+ * (compacted in place); returns the new row count.
+ */
+function reportDuplicates(
+  keys: Float64Array,
+  cols: Omit<DetectionTable, 'count'>,
+  perCamera: number[],
+  frames: string[],
+  ctx: DetectionContext,
+  add: (line: number, message: string, hint?: string) => void,
+): number {
+  const count = keys.length;
+  const sorted = keys.slice().sort();
+  let any = false;
+  for (let k = 1; k < count; k++) {
+    if (sorted[k] === sorted[k - 1]) {
+      any = true;
+      break;
+    }
+  }
+  if (!any) return count;
+  const first = new Map<number, number>();
+  let w = 0;
+  for (let r = 0; r < count; r++) {
+    const prev = first.get(keys[r]!);
+    if (prev !== undefined) {
+      perCamera[cols.camera[r]!]!--;
+      add(
+        cols.line[r]!,
+        `duplicate detection: frame ${describeValue(frames[cols.frame[r]!])}, camera "${ctx.cameras[cols.camera[r]!]!.name}", target "${ctx.targets[cols.target[r]!]!.name}", point ${cols.point[r]} also appears on line ${prev}`,
+        'keep one detection per point per image',
+      );
+      continue;
+    }
+    first.set(keys[r]!, cols.line[r]!);
+    for (const c of [cols.frame, cols.camera, cols.target, cols.point, cols.u, cols.v, cols.sigma, cols.line]) c[w] = c[r]!;
+    w++;
+  }
+  return w;
 }
