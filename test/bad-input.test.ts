@@ -113,7 +113,7 @@ const cases: Case[] = [
   // ---- rig files
   { name: 'rig: unknown format version', rig: sub(rigText, 'rig-calibration/1', 'rig-calibration/9'), expect: ['unknown format "rig-calibration/9"'], at: 'rig.yaml:1' },
   { name: 'rig: missing quality', rig: rigText.slice(0, rigText.indexOf('quality:')), expect: ['quality', 'missing required field'] },
-  { name: 'rig: covariance with 35 numbers', rig: sub(rigText, 'covariance: [0, ', 'covariance: ['), expect: ['cameras[0].covariance', 'at least 36'] },
+  { name: 'rig: covariance with 35 numbers', rig: sub(rigText, 'covariance: [0, ', 'covariance: ['), expect: ['cameras[0].covariance', 'exactly 36'] },
   { name: 'rig: quaternion not unit', rig: sub(rigText, 'quaternion_wxyz: [1, 0, 0, 0]', 'quaternion_wxyz: [2, 0, 0, 0]'), expect: ['quaternion norm is 2'], at: `rig.yaml:${lineOf(rigText, 'quaternion_wxyz')}` },
   { name: 'rig: parent not the root', rig: sub(rigText, 'parent: cam_a', 'parent: cam_x'), expect: ['parent must be the root "cam_a"'] },
   { name: 'rig: NaN translation', rig: sub(rigText, 'translation: [0.1, ', 'translation: [.nan, '), expect: ['cameras[1].translation[0]', 'finite number'] },

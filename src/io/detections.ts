@@ -90,9 +90,10 @@ export function parseDetections(
   let count = 0;
 
   const cameraIndex = new Map<string, number>();
-  ctx.cameras.forEach((c, i) => cameraIndex.set(c.name, i));
+  // With duplicate names (reported by the session loader) the first entry wins.
+  ctx.cameras.forEach((c, i) => cameraIndex.has(c.name) || cameraIndex.set(c.name, i));
   const targetIndex = new Map<string, number>();
-  ctx.targets.forEach((t, i) => targetIndex.set(t.name, i));
+  ctx.targets.forEach((t, i) => targetIndex.has(t.name) || targetIndex.set(t.name, i));
   const cameraNames = ctx.cameras.map((c) => c.name);
   const targetNames = ctx.targets.map((t) => t.name);
   const frameIndex = new Map<string, number>();

@@ -53,7 +53,8 @@ export function describeValue(v: unknown): string {
 }
 
 /** "did you mean …?" text, or a fallback listing the choices. */
-export function didYouMean(word: string, candidates: readonly string[], what = 'one of'): string {
+export function didYouMean(word: string, allCandidates: readonly string[], what = 'one of'): string {
+  const candidates = [...new Set(allCandidates)];
   const s = suggestSimilar(word, candidates);
   if (s !== undefined && s !== word) return `did you mean "${s}"?`;
   const list = candidates.slice(0, 12).map((c) => `"${c}"`).join(', ');

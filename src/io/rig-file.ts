@@ -186,13 +186,22 @@ export function loadRigFileCollect(path: string, issues: IssueCollector): RigFil
   });
   if (typeof data.root === 'string' && rawCams.length) {
     const root = data.root;
-    if (!names.includes(root) && names.length === rawCams.length) {
+    const rootKnown = names.includes(root);
+    if (!rootKnown && names.length === rawCams.length) {
       issues.add(src.issueAt(['root'], `root "${root}" is not among the cameras`, didYouMean(root, names, 'a camera name:')));
     }
-    rawCams.forEach((rc, i) => {
+    // Parent checks only make sense against a root that exists.
+    if (rootKnown) rawCams.forEach((rc, i) => {
       const r = rigCameraSchema.safeParse(rc);
       if (!r.success) return;
       const { name: n, parent } = r.data;
+      if (n === root) {
+        const { translation: t, quaternion_wxyz: q } = r.data;
+        // Contract: the root has the identity pose (written exactly as 0 and 1 by the tool).
+        if (Math.hypot(t[0]!, t[1]!, t[2]!) > 1e-12 || Math.abs(q[0]! - 1) > 1e-12 || Math.hypot(q[1]!, q[2]!, q[3]!) > 1e-12) {
+          issues.add(src.issueAt(['cameras', i], `the root camera "${n}" must have the identity pose`, 'write translation: [0, 0, 0] and quaternion_wxyz: [1, 0, 0, 0]'));
+        }
+      }
       if (n === root && parent !== null) issues.add(src.issueAt(['cameras', i, 'parent'], `the root camera's parent must be null, received ${describeValue(parent)}`, 'write parent: null'));
       if (n !== root && parent !== root) issues.add(src.issueAt(['cameras', i, 'parent'], `parent must be the root "${root}", received ${describeValue(parent)}`, `write parent: ${root}`));
     });

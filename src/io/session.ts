@@ -118,8 +118,9 @@ export function loadSessionCollect(path: string, issues: IssueCollector): Sessio
   // Detections: loaded even when the session has issues, so that all problems are listed at once.
   let detectionsPath: string | undefined;
   let loaded: ReturnType<typeof loadDetectionsCollect>;
-  if (typeof raw.detections === 'string' && raw.detections !== '') {
-    detectionsPath = nodePath.join(nodePath.dirname(path), raw.detections);
+  // Without cameras or targets every row would be "unknown"; those issues would only be noise.
+  if (typeof raw.detections === 'string' && raw.detections !== '' && rawCameras.length > 0 && rawTargets.length > 0) {
+    detectionsPath = nodePath.isAbsolute(raw.detections) ? raw.detections : nodePath.join(nodePath.dirname(path), raw.detections);
     const ctx: DetectionContext = {
       cameras: rawCameras.map((rc, i) => {
         const c = cameras[i];

@@ -274,9 +274,10 @@ export function zodIssuesToInput(
       case 'too_big': {
         const bound = zi.code === 'too_small' ? zi.minimum : zi.maximum;
         const op = zi.code === 'too_small' ? (zi.inclusive ? '>=' : '>') : zi.inclusive ? '<=' : '<';
+        const exact = (zi as { exact?: boolean }).exact === true;
         const msg =
           zi.origin === 'array' || zi.origin === 'set'
-            ? `expected ${op === '>=' ? 'at least' : op === '<=' ? 'at most' : op} ${String(bound)} item(s), received ${describeValue(received)}`
+            ? `expected ${exact ? 'exactly' : op === '>=' ? 'at least' : op === '<=' ? 'at most' : op} ${String(bound)} item(s), received ${describeValue(received)}`
             : zi.origin === 'string'
               ? `expected a text of length ${op} ${String(bound)}, received ${describeValue(received)}`
               : `expected a value ${op} ${String(bound)}, received ${describeValue(received)}`;
@@ -301,8 +302,9 @@ export function zodIssuesToInput(
         break;
       }
       case 'invalid_format': {
-        const msg = `${describeValue(received)} is not a valid ${zi.format === 'regex' ? 'name' : zi.format}${zi.format === 'regex' && 'pattern' in zi ? ` (allowed: ${String(zi.pattern).replace(/^\/\^?|\$?\/$/g, '')})` : ''}`;
-        issues.add(src.issueAt(path, msg, fieldHint));
+        const isName = zi.format === 'regex';
+        const msg = `${describeValue(received)} is not a valid ${isName ? 'name' : zi.format}${isName && 'pattern' in zi ? ` (allowed: ${String(zi.pattern).replace(/^\/\^?|\$?\/$/g, '')})` : ''}`;
+        issues.add(src.issueAt(path, msg, isName ? 'use only letters, digits, "_", "." and "-", e.g. front_center' : fieldHint));
         break;
       }
       default:

@@ -8,9 +8,20 @@ import * as os from 'node:os';
 import * as path from 'node:path';
 import type { RigFile } from '../io/types.js';
 
-/** A fresh empty directory under the system temp folder. */
+const created: string[] = [];
+let cleanupRegistered = false;
+
+/** A fresh empty directory under the system temp folder, removed when the test process exits. */
 export function makeTmpDir(prefix = 'rigsolve-io-'): string {
-  return fs.mkdtempSync(path.join(os.tmpdir(), prefix));
+  const dir = fs.mkdtempSync(path.join(os.tmpdir(), prefix));
+  created.push(dir);
+  if (!cleanupRegistered) {
+    cleanupRegistered = true;
+    process.on('exit', () => {
+      for (const d of created) fs.rmSync(d, { recursive: true, force: true });
+    });
+  }
+  return dir;
 }
 
 /** A valid session: two cameras (640x480), a 4x3 checkerboard and a 4-point target. */
