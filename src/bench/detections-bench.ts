@@ -3,7 +3,10 @@
  * Run after `npm run build`: node dist/bench/detections-bench.js [rows]
  * Invented data (synthetic rows), for timing only.
  */
-import { parseDetections, type DetectionContext } from '../io/detections.js';
+import * as fs from 'node:fs';
+import * as os from 'node:os';
+import * as path from 'node:path';
+import { loadDetections, parseDetections, type DetectionContext } from '../io/detections.js';
 import { IssueCollector } from '../io/issues.js';
 
 const rows = Number(process.argv[2] ?? 500_000);
@@ -20,8 +23,25 @@ const text = parts.join('');
 parts.length = 0; // keep only the text alive, as when reading a file
 for (let rep = 0; rep < 5; rep++) {
   const t0 = process.hrtime.bigint();
+  const c0 = process.cpuUsage();
   const issues = new IssueCollector();
   const r = parseDetections(text, 'bench.csv', ctx, issues);
   const ms = Number(process.hrtime.bigint() - t0) / 1e6;
-  console.log(`rows=${r.table.count} issues=${issues.total} bytes=${text.length} parse_ms=${ms.toFixed(1)}`);
+  const cpu = process.cpuUsage(c0);
+  console.log(`rows=${r.table.count} issues=${issues.total} bytes=${text.length} parse_ms=${ms.toFixed(1)} cpu_ms=${((cpu.user + cpu.system) / 1000).toFixed(1)}`);
+}
+
+// End to end from disk: read, UTF-8 check, parse.
+const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'rigsolve-bench-'));
+const file = path.join(dir, 'detections.csv');
+fs.writeFileSync(file, text);
+try {
+  for (let rep = 0; rep < 3; rep++) {
+    const t0 = process.hrtime.bigint();
+    const r = loadDetections(file, ctx);
+    const ms = Number(process.hrtime.bigint() - t0) / 1e6;
+    console.log(`from disk: rows=${r.table.count} load_ms=${ms.toFixed(1)}`);
+  }
+} finally {
+  fs.rmSync(dir, { recursive: true, force: true });
 }
