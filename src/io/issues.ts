@@ -18,11 +18,6 @@ export class IssueCollector {
     if (this.issues.length < this.cap) this.issues.push(issue);
   }
 
-  merge(other: IssueCollector): void {
-    for (const i of other.issues) this.add(i);
-    this.total += other.total - other.issues.length;
-  }
-
   get ok(): boolean {
     return this.total === 0;
   }

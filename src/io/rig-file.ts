@@ -7,7 +7,7 @@
  * (translation, quaternion_wxyz, covariance, …) are written in flow style on
  * one line; covariance is a flat row-major list of 36 numbers.
  */
-import { Document, isSeq, isScalar, visit } from 'yaml';
+import { Document, isScalar, visit } from 'yaml';
 import { z } from 'zod';
 import { CAMERA_MODEL_NAMES, type CameraModelName } from '../camera/model.js';
 import { RigCalError } from '../errors.js';

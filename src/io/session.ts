@@ -94,10 +94,10 @@ export function loadSessionCollect(path: string, issues: IssueCollector): Sessio
   // Cross-field checks on every entry that is well formed on its own.
   const rawCameras = Array.isArray(raw.cameras) ? (raw.cameras as unknown[]) : [];
   const rawTargets = Array.isArray(raw.targets) ? (raw.targets as unknown[]) : [];
-  const cameras: (CameraSpecWithProvenance | undefined)[] = rawCameras.map((rc, i) => {
-    const r = cameraSchema.safeParse(rc);
-    return r.success ? checkCamera(src, i, r.data, issues) : undefined;
-  });
+  const cameraInputs = rawCameras.map((rc) => cameraSchema.safeParse(rc));
+  const cameras: (CameraSpecWithProvenance | undefined)[] = cameraInputs.map((r, i) =>
+    r.success ? checkCamera(src, i, r.data, issues) : undefined,
+  );
   const targets: (TargetSpec | undefined)[] = rawTargets.map((rt) => {
     const r = targetSchema.safeParse(rt);
     return r.success ? buildTarget(r.data) : undefined;
@@ -122,12 +122,13 @@ export function loadSessionCollect(path: string, issues: IssueCollector): Sessio
   if (typeof raw.detections === 'string' && raw.detections !== '' && rawCameras.length > 0 && rawTargets.length > 0) {
     detectionsPath = nodePath.isAbsolute(raw.detections) ? raw.detections : nodePath.join(nodePath.dirname(path), raw.detections);
     const ctx: DetectionContext = {
-      cameras: rawCameras.map((rc, i) => {
-        const c = cameras[i];
+      cameras: rawCameras.map((_rc, i) => {
+        // Well-formed cameras give their resolution (for the pixel bounds check) even if a cross-field rule failed.
+        const r = cameraInputs[i]!;
         const where = { file: path, path: `cameras[${i}]`, line: src.lineOf(['cameras', i]) };
-        return c ? { name: c.name, resolution: c.resolution, where } : { name: cameraNames[i] ?? `#${i}`, where };
+        return r.success ? { name: r.data.name, resolution: r.data.resolution, where } : { name: cameraNames[i] ?? `#${i}`, where };
       }),
-      targets: rawTargets.map((rt, i) => {
+      targets: rawTargets.map((_rt, i) => {
         const t = targets[i];
         return t ? { name: t.name, numPoints: t.numPoints } : { name: targetNames[i] ?? `#${i}` };
       }),
