@@ -82,3 +82,44 @@ describe('writeFileAtomic', () => {
     expect(() => writeFileAtomic(path.join(dir, 'no', 'out.txt'), 'x')).toThrow(/does not exist/);
   });
 });
+
+describe('SIGINT during an atomic write (child process)', () => {
+  test('the write completes or leaves nothing, no temp file remains, and the signal still ends the process', async () => {
+    const ts = await import('typescript');
+    const { spawnSync } = await import('node:child_process');
+    const { fileURLToPath } = await import('node:url');
+    const dir = makeTmpDir();
+    // Transpile the two modules involved into plain JS so the child runs them with bare node.
+    const here = path.dirname(fileURLToPath(import.meta.url));
+    fs.mkdirSync(path.join(dir, 'io'));
+    for (const [src, dst] of [
+      [path.join(here, 'atomic.ts'), path.join(dir, 'io', 'atomic.js')],
+      [path.join(here, '..', 'errors.ts'), path.join(dir, 'errors.js')],
+    ] as const) {
+      const out = ts.transpileModule(fs.readFileSync(src, 'utf8'), { compilerOptions: { module: ts.ModuleKind.ESNext, target: ts.ScriptTarget.ES2022 } });
+      fs.writeFileSync(dst, out.outputText);
+    }
+    fs.writeFileSync(path.join(dir, 'package.json'), '{"type":"module"}');
+    const outDir = path.join(dir, 'out');
+    fs.mkdirSync(outDir);
+    const target = path.join(outDir, 'rig.yaml');
+    const child = path.join(dir, 'child.js');
+    fs.writeFileSync(
+      child,
+      `import { writeFileAtomic, testHooks } from './io/atomic.js';
+       testHooks.beforeRename = () => {
+         process.kill(process.pid, 'SIGINT'); // arrives while the temp file exists
+         const t = Date.now(); while (Date.now() - t < 100) {}
+       };
+       writeFileAtomic(${JSON.stringify(target)}, 'complete\\n');
+       setTimeout(() => { console.log('survived'); }, 2000);`,
+    );
+    const r = spawnSync(process.execPath, [child], { encoding: 'utf8', timeout: 20_000 });
+    expect(r.signal).toBe('SIGINT');
+    expect(r.stdout).not.toContain('survived');
+    const left = fs.readdirSync(outDir);
+    expect(left.filter((f) => f.endsWith('.tmp'))).toEqual([]);
+    // Either the file is complete or absent, never partial.
+    if (left.includes('rig.yaml')) expect(fs.readFileSync(target, 'utf8')).toBe('complete\n');
+  });
+});
