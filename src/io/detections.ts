@@ -33,6 +33,9 @@ export interface LoadedDetections {
   perCamera: number[];
 }
 
+/** Largest detections file accepted, bytes (512 MiB, about 10M rows; below V8's string length limit). */
+export const MAX_DETECTIONS_BYTES = 512 * 1024 * 1024;
+
 export const REQUIRED_COLUMNS = ['frame', 'camera', 'target', 'point', 'u', 'v'] as const;
 export const OPTIONAL_COLUMNS = ['sigma'] as const;
 const ALL_COLUMNS: readonly string[] = [...REQUIRED_COLUMNS, ...OPTIONAL_COLUMNS];
@@ -56,7 +59,7 @@ export function loadDetectionsCollect(
   ctx: DetectionContext,
   issues: IssueCollector,
 ): LoadedDetections | undefined {
-  const f = readTextFile(path, issues, 'detections');
+  const f = readTextFile(path, issues, 'detections', MAX_DETECTIONS_BYTES);
   if (!f) return undefined;
   return parseDetections(f.text, path, ctx, issues);
 }

@@ -6,6 +6,7 @@ export {
   parseDetections,
   REQUIRED_COLUMNS,
   OPTIONAL_COLUMNS,
+  MAX_DETECTIONS_BYTES,
   type DetectionContext,
   type LoadedDetections,
   type SessionLocation,
