@@ -48,12 +48,19 @@ export function formatIssue(issue: InputIssue): string {
 /** Invalid input (exit code 2). Collects every issue found, not just the first. */
 export class InputError extends RigCalError {
   readonly issues: InputIssue[];
-  constructor(code: string, issues: InputIssue[]) {
+  /**
+   * Number of issues found, which may exceed `issues.length` when a loader
+   * stopped storing issues after a cap (a file with 500k bad rows).
+   */
+  readonly totalIssues: number;
+  constructor(code: string, issues: InputIssue[], totalIssues: number = issues.length) {
+    const total = Math.max(totalIssues, issues.length);
     const first = issues[0] ? formatIssue(issues[0]) : 'invalid input';
-    const more = issues.length > 1 ? ` (and ${issues.length - 1} more)` : '';
+    const more = total > 1 ? ` (and ${total - 1} more)` : '';
     super(code, first + more, EXIT_INVALID_INPUT);
     this.name = 'InputError';
     this.issues = issues;
+    this.totalIssues = total;
   }
 }
 
