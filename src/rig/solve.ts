@@ -19,11 +19,17 @@ import { cameraModel } from '../camera/registry.js';
 import type { CameraModel } from '../camera/model.js';
 import { adjoint, inverse, poseClone, se3LeftManifold, type Pose } from '../geometry/se3.js';
 import type { Session } from '../io/types.js';
-import { Problem } from '../solver/problem.js';
-import { solve, type LmOptions, type SolveSummary, type IterationRecord } from '../solver/lm.js';
-import { huberLoss, cauchyLoss } from '../solver/loss.js';
-import type { LossFunction } from '../solver/loss.js';
-import { computeCovariance } from '../solver/covariance.js';
+import {
+  Problem,
+  solve,
+  huberLoss,
+  cauchyLoss,
+  computeCovariance,
+  type LmOptions,
+  type SolveSummary,
+  type IterationRecord,
+  type LossFunction,
+} from '../solver/index.js';
 import { RigSolveError } from './errors.js';
 import {
   MIN_VIEW_POINTS,
@@ -245,7 +251,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     const out: { rows: Int32Array; e: Float64Array }[] = [];
     for (let b = 0; b < built.blocks.length; b++) {
       const block = built.blocks[b]!;
-      const params = block.parameterBlocks.map((id) => built.problem.values(id));
+      const params = built.problem.residualParams(b);
       const r = new Float64Array(block.numResiduals);
       if (!block.evaluate(params, r, null, null)) r.fill(Infinity);
       const e = new Float64Array(r.length / 2);
@@ -301,10 +307,11 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   const final = summary!;
 
   // 6. Covariance of the camera extrinsics, frame poses marginalised.
-  const cov = computeCovariance(built.problem);
-  if (!cov.ok) {
-    throw new RigSolveError('rig.poorly_constrained', `the rig is poorly constrained: ${cov.message}`);
+  const covResult = computeCovariance(built.problem);
+  if (!covResult.ok) {
+    throw new RigSolveError('rig.poorly_constrained', `the rig is poorly constrained: ${covResult.message}`);
   }
+  const cov = covResult.covariance;
   const sigma0 = Math.sqrt(cov.sigma0Squared);
   const s2 = cov.sigma0Squared;
   const joint = new Float64Array(36 * nc * nc);
@@ -324,7 +331,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   for (let b = 0; b < built.blocks.length; b++) {
     const block = built.blocks[b]!;
     const rows = built.blockRows[b]!;
-    const params = block.parameterBlocks.map((id) => built.problem.values(id));
+    const params = built.problem.residualParams(b);
     const r = new Float64Array(block.numResiduals);
     block.evaluate(params, r, null, null);
     const c = built.blockViews[b]!.camera;
