@@ -45,4 +45,11 @@ export interface CameraModel {
    * lies outside the model's valid region).
    */
   unproject(params: ArrayLike<number>, uv: ArrayLike<number>, ray: Float64Array): boolean;
+
+  /**
+   * Pixel to the normalised image plane: out2 = (x/z, y/z) of the bearing
+   * that `unproject` returns, for perspective uses (PnP, homographies).
+   * Returns false when unproject fails or the bearing has z ≤ 0.
+   */
+  unprojectToPlane(params: ArrayLike<number>, uv: ArrayLike<number>, out2: Float64Array): boolean;
 }
