@@ -94,7 +94,12 @@ export function rigFileToYaml(rig: RigFile): string {
   const plain = ordered(rig as Record<string, unknown>, TOP_ORDER);
   plain.cameras = rig.cameras.map((c) => ordered(c as Record<string, unknown>, CAMERA_ORDER));
   plain.quality = ordered(rig.quality as Record<string, unknown>, QUALITY_ORDER);
-  const doc = new Document(plain);
+  return toCompactYaml(plain);
+}
+
+/** YAML text with every list of plain values on one line (`[1, 2, 3]`), as the contract's examples show. */
+export function toCompactYaml(value: unknown): string {
+  const doc = new Document(value);
   visit(doc, {
     Seq(_key, node) {
       if (node.items.length > 0 && node.items.every((it) => isScalar(it))) node.flow = true;

@@ -167,7 +167,7 @@ function nameOf(entry: unknown): string | undefined {
   return undefined;
 }
 
-function checkDuplicates(src: YamlSource, list: 'cameras' | 'targets', names: (string | undefined)[], issues: IssueCollector): void {
+export function checkDuplicates(src: YamlSource, list: 'cameras' | 'targets', names: (string | undefined)[], issues: IssueCollector): void {
   const first = new Map<string, number>();
   names.forEach((n, i) => {
     if (n === undefined) return;
@@ -183,7 +183,7 @@ function checkDuplicates(src: YamlSource, list: 'cameras' | 'targets', names: (s
 }
 
 /** Cross-field checks of one camera; returns its spec (defaults filled) when these pass. */
-function checkCamera(src: YamlSource, i: number, c: CameraInput, issues: IssueCollector): CameraSpecWithProvenance | undefined {
+export function checkCamera(src: YamlSource, i: number, c: CameraInput, issues: IssueCollector): CameraSpecWithProvenance | undefined {
   const model = c.model as CameraModelName;
   const names = MODEL_PARAM_NAMES[model];
   const nd = names.length - 4;
