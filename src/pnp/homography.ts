@@ -1,0 +1,147 @@
+/**
+ * Plane-to-plane homography by the normalised direct linear transform (DLT).
+ *
+ * Estimates H (3x3, row-major, ‖H‖_F = 1) with dst ~ H·src in homogeneous
+ * coordinates, from n ≥ 4 point pairs. Each pair gives two rows of A h = 0:
+ *   [ 0ᵀ, −w'sᵀ, y'sᵀ ] h = 0,   [ w'sᵀ, 0ᵀ, −x'sᵀ ] h = 0,   s = (x, y, 1), w' = 1,
+ * and h is the right singular vector of A for the smallest singular value.
+ *
+ * Hartley normalisation (R. Hartley, "In defense of the eight-point
+ * algorithm", IEEE TPAMI 1997): each point set is translated so that its
+ * centroid is at the origin and scaled so that the mean distance to it is √2;
+ * then H = T_dst⁻¹ · H_normalised · T_src.
+ *
+ * Degenerate input is reported as a status, not thrown: fewer than 4 pairs,
+ * non-finite coordinates, (nearly) collinear points on either side, or a
+ * null space of A of dimension > 1.
+ */
+import { Matrix, SingularValueDecomposition } from 'ml-matrix';
+
+export type HomographyFailure = 'too_few_points' | 'size_mismatch' | 'non_finite' | 'collinear' | 'degenerate';
+
+export type HomographyResult =
+  | { ok: true; H: Float64Array; /** σ₉/σ₈ of the normalised design matrix (0 for exact data). */ conditionRatio: number }
+  | { ok: false; reason: HomographyFailure; message: string };
+
+/**
+ * Collinearity threshold on the normalised 2x2 scatter: λ_min/λ_max below this
+ * means the points lie on a line to within ~1e-5 of their spread (common practice).
+ */
+const COLLINEAR_EIG_RATIO = 1e-10;
+/** A second (near-)null direction of A: σ₈/σ₁ below this is treated as rank deficiency. */
+const RANK_RATIO = 1e-12;
+
+interface Normalisation {
+  /** 3x3 row-major similarity T mapping raw to normalised points. */
+  T: Float64Array;
+  /** Normalised coordinates, interleaved xy. */
+  pts: Float64Array;
+  /** λ_min/λ_max of the normalised scatter matrix. */
+  eigRatio: number;
+}
+
+function normalise(xy: ArrayLike<number>, n: number): Normalisation {
+  let cx = 0, cy = 0;
+  for (let i = 0; i < n; i++) {
+    cx += xy[2 * i]!;
+    cy += xy[2 * i + 1]!;
+  }
+  cx /= n;
+  cy /= n;
+  let meanDist = 0;
+  for (let i = 0; i < n; i++) meanDist += Math.hypot(xy[2 * i]! - cx, xy[2 * i + 1]! - cy);
+  meanDist /= n;
+  const s = meanDist > 0 ? Math.SQRT2 / meanDist : 1;
+  const pts = new Float64Array(2 * n);
+  let sxx = 0, sxy = 0, syy = 0;
+  for (let i = 0; i < n; i++) {
+    const x = s * (xy[2 * i]! - cx);
+    const y = s * (xy[2 * i + 1]! - cy);
+    pts[2 * i] = x;
+    pts[2 * i + 1] = y;
+    sxx += x * x;
+    sxy += x * y;
+    syy += y * y;
+  }
+  // Eigenvalues of the 2x2 scatter [[sxx, sxy], [sxy, syy]].
+  const tr = sxx + syy;
+  const disc = Math.sqrt(Math.max(0, (sxx - syy) * (sxx - syy) + 4 * sxy * sxy));
+  const lMax = 0.5 * (tr + disc);
+  const lMin = 0.5 * (tr - disc);
+  const T = Float64Array.of(s, 0, -s * cx, 0, s, -s * cy, 0, 0, 1);
+  return { T, pts, eigRatio: lMax > 0 ? Math.max(lMin, 0) / lMax : 0 };
+}
+
+/**
+ * estimateHomography(src, dst) → H with dst_i ~ H·src_i.
+ * src, dst: interleaved xy (length 2n each). H: row-major 3x3 with ‖H‖_F = 1
+ * and H[8] ≥ 0 when H[8] ≠ 0.
+ */
+export function estimateHomography(src: ArrayLike<number>, dst: ArrayLike<number>): HomographyResult {
+  if (src.length !== dst.length || src.length % 2 !== 0) {
+    return { ok: false, reason: 'size_mismatch', message: `src has ${src.length} and dst ${dst.length} coordinates; both must hold the same number of xy pairs` };
+  }
+  const n = src.length / 2;
+  if (n < 4) return { ok: false, reason: 'too_few_points', message: `a homography needs at least 4 point pairs, got ${n}` };
+  for (let i = 0; i < 2 * n; i++) {
+    if (!Number.isFinite(src[i]!) || !Number.isFinite(dst[i]!)) {
+      return { ok: false, reason: 'non_finite', message: `point pair ${Math.floor(i / 2)} has a non-finite coordinate` };
+    }
+  }
+  const ns = normalise(src, n);
+  const nd = normalise(dst, n);
+  if (ns.eigRatio < COLLINEAR_EIG_RATIO || nd.eigRatio < COLLINEAR_EIG_RATIO) {
+    const side = ns.eigRatio < COLLINEAR_EIG_RATIO ? 'source' : 'destination';
+    return { ok: false, reason: 'collinear', message: `the ${side} points are collinear (scatter eigenvalue ratio ${Math.min(ns.eigRatio, nd.eigRatio).toExponential(2)}); a homography needs 4 points with no 3 on a line` };
+  }
+  // With 4 pairs A is 8x9; a zero row makes it square so that the SVD returns all of V.
+  const rows = Math.max(2 * n, 9);
+  const A = Matrix.zeros(rows, 9);
+  for (let i = 0; i < n; i++) {
+    const x = ns.pts[2 * i]!, y = ns.pts[2 * i + 1]!;
+    const xp = nd.pts[2 * i]!, yp = nd.pts[2 * i + 1]!;
+    const r0 = 2 * i, r1 = 2 * i + 1;
+    A.set(r0, 3, -x); A.set(r0, 4, -y); A.set(r0, 5, -1);
+    A.set(r0, 6, yp * x); A.set(r0, 7, yp * y); A.set(r0, 8, yp);
+    A.set(r1, 0, x); A.set(r1, 1, y); A.set(r1, 2, 1);
+    A.set(r1, 6, -xp * x); A.set(r1, 7, -xp * y); A.set(r1, 8, -xp);
+  }
+  const svd = new SingularValueDecomposition(A, { autoTranspose: false });
+  const sv = svd.diagonal;
+  // ml-matrix returns singular values in descending order; find the smallest explicitly.
+  let iMin = 0;
+  for (let i = 1; i < 9; i++) if (sv[i]! < sv[iMin]!) iMin = i;
+  const sorted = [...sv].sort((a, b) => b - a);
+  if (sorted[7]! <= RANK_RATIO * sorted[0]!) {
+    return { ok: false, reason: 'degenerate', message: `the point configuration does not determine a unique homography (second smallest singular value ${sorted[7]!.toExponential(2)} relative to ${sorted[0]!.toExponential(2)})` };
+  }
+  const V = svd.rightSingularVectors;
+  const Hn = new Float64Array(9);
+  for (let k = 0; k < 9; k++) Hn[k] = V.get(k, iMin);
+  // H = T_dst⁻¹ · Hn · T_src.
+  const Td = nd.T;
+  const sd = Td[0]!;
+  const TdInv = Float64Array.of(1 / sd, 0, -Td[2]! / sd, 0, 1 / sd, -Td[5]! / sd, 0, 0, 1);
+  const H = mul3(mul3(TdInv, Hn), ns.T);
+  let norm = 0;
+  for (let k = 0; k < 9; k++) norm += H[k]! * H[k]!;
+  norm = Math.sqrt(norm);
+  const sign = H[8]! < 0 ? -1 : 1;
+  for (let k = 0; k < 9; k++) H[k] = (sign * H[k]!) / norm;
+  return { ok: true, H, conditionRatio: sorted[8]! / sorted[7]! };
+}
+
+/** Applies H to (x, y): returns (x', y') = dehomogenised H·(x, y, 1). */
+export function applyHomography(H: ArrayLike<number>, x: number, y: number, out: Float64Array = new Float64Array(2)): Float64Array {
+  const w = H[6]! * x + H[7]! * y + H[8]!;
+  out[0] = (H[0]! * x + H[1]! * y + H[2]!) / w;
+  out[1] = (H[3]! * x + H[4]! * y + H[5]!) / w;
+  return out;
+}
+
+function mul3(A: ArrayLike<number>, B: ArrayLike<number>): Float64Array {
+  const C = new Float64Array(9);
+  for (let i = 0; i < 3; i++)
+    for (let j = 0; j < 3; j++) C[i * 3 + j] = A[i * 3]! * B[j]! + A[i * 3 + 1]! * B[3 + j]! + A[i * 3 + 2]! * B[6 + j]!;
+  return C;
+}

@@ -1,0 +1,202 @@
+/**
+ * Single-view pose estimation (PnP) for the rig solver: T_cam_target from a
+ * target's 3D points and their detected pixels, through any CameraModel.
+ *
+ * Steps:
+ *  1. Check the input (sizes, ≥ 4 points, finite values) and unproject every
+ *     pixel to a unit bearing.
+ *  2. Shape of the point set from the singular values σ1 ≥ σ2 ≥ σ3 of the
+ *     centred points: σ2/σ1 < collinearRatio → 'pnp.collinear' (the pose
+ *     about the line is unobservable); σ3/σ1 < planarRatio → planar
+ *     initialisers (homography on normalised points within a 75° cone, and
+ *     EPnP with 3 control points on all bearings); σ3/σ1 ≥ nonPlanarRatio →
+ *     EPnP with 4 control points. Near-planar sets get both kinds.
+ *  3. Every initial pose is refined by LM through the full camera model; the
+ *     lowest reprojection RMS wins.
+ *  4. The winner is verified: every point projects (is in front of the camera
+ *     and inside the model's valid region), has positive depth along its
+ *     bearing, and the RMS is finite (and ≤ maxRmsPx when given). Otherwise a
+ *     PnpError is thrown; a pose is never returned unverified.
+ */
+import type { CameraModel } from '../camera/model.js';
+import { compose, inverse, type Pose } from '../geometry/se3.js';
+import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
+import { PnpError } from './errors.js';
+import { epnp } from './epnp.js';
+import { planarPose, PLANAR_MAX_ANGLE_RAD } from './planar.js';
+import { refinePose, type RefineOptions } from './refine.js';
+
+export { PnpError, type PnpErrorCode } from './errors.js';
+export { estimateHomography, applyHomography, type HomographyResult, type HomographyFailure } from './homography.js';
+export { planarPose, PLANAR_MAX_ANGLE_RAD, type PlanarPoseResult } from './planar.js';
+export { epnp, procrustes, bearingError, type EpnpResult } from './epnp.js';
+export { refinePose, reprojectionResiduals, DEFAULT_REFINE_OPTIONS, type RefineOptions, type RefineResult, type RefineStatus } from './refine.js';
+
+export type PnpMethod = 'planar' | 'epnp';
+
+export interface PnpOptions {
+  /** σ2/σ1 of the centred points below this → 'pnp.collinear'. Default 1e-6. */
+  collinearRatio?: number;
+  /** σ3/σ1 below this → try the planar initialisers. Default 0.05. */
+  planarRatio?: number;
+  /** σ3/σ1 at or above this → try 4-control-point EPnP. Default 1e-4. */
+  nonPlanarRatio?: number;
+  /** When set, an RMS above this many pixels is an error ('pnp.poor_fit'). Default: no bound. */
+  maxRmsPx?: number;
+  /** Options of the LM refinement. */
+  refine?: RefineOptions;
+}
+
+export interface PnpResult {
+  T_cam_target: Pose;
+  /** sqrt(mean over points of du² + dv²) after refinement, pixels. */
+  rmsPx: number;
+  /** Per-point residuals (predicted − detected), uv interleaved, pixels. */
+  residualsPx: Float64Array;
+  /** Initialiser whose refined pose won. */
+  method: PnpMethod;
+  /** LM iterations of the winning refinement. */
+  iterations: number;
+  /** Whether the winning refinement met a convergence criterion. */
+  converged: boolean;
+}
+
+/**
+ * solvePnP(model, params, points3d, pixels, options?) → PnpResult.
+ * points3d: xyz interleaved, target frame, metres (3n). pixels: uv
+ * interleaved (2n), point i ↔ pixel i. Throws PnpError on any input or
+ * numerical problem that prevents a verified pose.
+ */
+export function solvePnP(
+  model: CameraModel,
+  params: ArrayLike<number>,
+  points3d: ArrayLike<number>,
+  pixels: ArrayLike<number>,
+  options: PnpOptions = {},
+): PnpResult {
+  const collinearRatio = options.collinearRatio ?? 1e-6;
+  const planarRatio = options.planarRatio ?? 0.05;
+  const nonPlanarRatio = options.nonPlanarRatio ?? 1e-4;
+
+  if (points3d.length % 3 !== 0 || pixels.length % 2 !== 0 || points3d.length / 3 !== pixels.length / 2) {
+    throw new PnpError('pnp.size_mismatch', `points3d has ${points3d.length} values and pixels ${pixels.length}; expected 3n and 2n for the same n → pass xyz and uv interleaved, one pixel per point`);
+  }
+  const n = points3d.length / 3;
+  if (n < 4) {
+    throw new PnpError('pnp.too_few_points', `pose estimation needs at least 4 points, got ${n} → use a view in which more of the target is detected`);
+  }
+  for (let i = 0; i < n; i++) {
+    const vals = [points3d[3 * i]!, points3d[3 * i + 1]!, points3d[3 * i + 2]!, pixels[2 * i]!, pixels[2 * i + 1]!];
+    if (!vals.every(Number.isFinite)) {
+      throw new PnpError('pnp.non_finite', `point ${i} has a non-finite value (xyz ${vals.slice(0, 3).join(', ')}; uv ${vals.slice(3).join(', ')}) → remove it or fix the detection`);
+    }
+  }
+  for (let i = 0; i < params.length; i++) {
+    if (!Number.isFinite(params[i]!)) throw new PnpError('pnp.non_finite', `camera parameter ${model.paramNames[i] ?? i} is ${params[i]}`);
+  }
+
+  const bearings = new Float64Array(3 * n);
+  const ray = new Float64Array(3);
+  const failed: number[] = [];
+  for (let i = 0; i < n; i++) {
+    if (!model.unproject(params, [pixels[2 * i]!, pixels[2 * i + 1]!], ray) || !ray.every(Number.isFinite)) failed.push(i);
+    else bearings.set(ray, 3 * i);
+  }
+  if (failed.length > 0) {
+    const list = failed.slice(0, 5).map((i) => `${i} (${pixels[2 * i]}, ${pixels[2 * i + 1]})`).join(', ');
+    throw new PnpError('pnp.unprojectable', `${failed.length} pixel(s) lie outside the valid region of the ${model.name} model: point ${list}${failed.length > 5 ? ', …' : ''} → check the intrinsics or drop these detections`);
+  }
+
+  // Shape of the point set.
+  const c = [0, 0, 0];
+  for (let i = 0; i < n; i++) for (let d = 0; d < 3; d++) c[d]! += points3d[3 * i + d]! / n;
+  const S = new Matrix(3, 3);
+  for (let i = 0; i < n; i++) {
+    const q = [points3d[3 * i]! - c[0]!, points3d[3 * i + 1]! - c[1]!, points3d[3 * i + 2]! - c[2]!];
+    for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) S.set(a, b, S.get(a, b) + q[a]! * q[b]!);
+  }
+  const eig = new EigenvalueDecomposition(S, { assumeSymmetric: true });
+  const order = [0, 1, 2].sort((a, b) => eig.realEigenvalues[b]! - eig.realEigenvalues[a]!);
+  const sig = order.map((i) => Math.sqrt(Math.max(eig.realEigenvalues[i]!, 0)));
+  if (!(sig[0]! > 0) || sig[1]! < collinearRatio * sig[0]!) {
+    throw new PnpError('pnp.collinear', `the ${n} target points are collinear (σ2/σ1 = ${(sig[0]! > 0 ? sig[1]! / sig[0]! : 0).toExponential(2)}); the rotation about their line cannot be determined → use points that span a plane or a volume`);
+  }
+  const ratio3 = sig[2]! / sig[0]!;
+
+  const initial: { pose: Pose; method: PnpMethod }[] = [];
+  const failures: { reason: string; message: string }[] = [];
+  if (ratio3 < planarRatio) {
+    // Plane frame P: origin at the centroid, axes the principal directions (right-handed).
+    const e = order.map((i) => [0, 1, 2].map((d) => eig.eigenvectorMatrix.get(d, i)));
+    const e1 = e[0]!, e2 = e[1]!;
+    const e3 = [e1[1]! * e2[2]! - e1[2]! * e2[1]!, e1[2]! * e2[0]! - e1[0]! * e2[2]!, e1[0]! * e2[1]! - e1[1]! * e2[0]!];
+    const T_target_plane: Pose = {
+      R: Float64Array.of(e1[0]!, e2[0]!, e3[0]!, e1[1]!, e2[1]!, e3[1]!, e1[2]!, e2[2]!, e3[2]!),
+      t: Float64Array.from(c),
+    };
+    const cosMax = Math.cos(PLANAR_MAX_ANGLE_RAD);
+    const planeXY: number[] = [];
+    const normXY: number[] = [];
+    for (let i = 0; i < n; i++) {
+      const fz = bearings[3 * i + 2]!;
+      if (fz < cosMax) continue;
+      const q = [points3d[3 * i]! - c[0]!, points3d[3 * i + 1]! - c[1]!, points3d[3 * i + 2]! - c[2]!];
+      planeXY.push(q[0]! * e1[0]! + q[1]! * e1[1]! + q[2]! * e1[2]!, q[0]! * e2[0]! + q[1]! * e2[1]! + q[2]! * e2[2]!);
+      normXY.push(bearings[3 * i]! / fz, bearings[3 * i + 1]! / fz);
+    }
+    if (planeXY.length >= 8) {
+      const pr = planarPose(planeXY, normXY);
+      if (pr.ok) initial.push({ pose: compose(pr.T_cam_plane, inverse(T_target_plane)), method: 'planar' });
+      else failures.push(pr);
+    }
+    const ep = epnp(points3d, bearings, true);
+    if (ep.ok) initial.push({ pose: ep.T_cam_target, method: 'epnp' });
+    else failures.push(ep);
+  }
+  if (ratio3 >= nonPlanarRatio) {
+    const ep = epnp(points3d, bearings, false);
+    if (ep.ok) initial.push({ pose: ep.T_cam_target, method: 'epnp' });
+    else failures.push(ep);
+  }
+
+  let best: PnpResult | undefined;
+  for (const init of initial) {
+    const r = refinePose(model, params, init.pose, points3d, pixels, options.refine);
+    if (r.status === 'invalid_point' || !Number.isFinite(r.rmsPx)) {
+      failures.push({ reason: 'behind_camera', message: r.message });
+      continue;
+    }
+    if (!inFront(r.T_cam_target, points3d, bearings, n)) {
+      failures.push({ reason: 'behind_camera', message: 'refined pose puts a point behind its bearing' });
+      continue;
+    }
+    if (!best || r.rmsPx < best.rmsPx) {
+      best = { T_cam_target: r.T_cam_target, rmsPx: r.rmsPx, residualsPx: r.residualsPx, method: init.method, iterations: r.iterations, converged: r.converged };
+    }
+  }
+  if (!best) {
+    const behind = failures.find((f) => f.reason === 'behind_camera');
+    if (behind) {
+      throw new PnpError('pnp.behind_camera', `no pose puts all ${n} points in front of the camera: ${behind.message}`);
+    }
+    const why = failures.map((f) => f.message).join('; ') || 'no initialiser applied';
+    throw new PnpError('pnp.no_solution', `no pose could be computed from ${n} points: ${why}`);
+  }
+  if (options.maxRmsPx !== undefined && !(best.rmsPx <= options.maxRmsPx)) {
+    throw new PnpError('pnp.poor_fit', `best pose leaves an RMS reprojection error of ${best.rmsPx.toFixed(3)} px > maxRmsPx = ${options.maxRmsPx} → check the point/pixel correspondence and the intrinsics`);
+  }
+  return best;
+}
+
+/** Every point has positive depth along its detected bearing: (R p_i + t)·f_i > 0. */
+function inFront(T: Pose, points3d: ArrayLike<number>, bearings: Float64Array, n: number): boolean {
+  const R = T.R;
+  for (let i = 0; i < n; i++) {
+    const x = points3d[3 * i]!, y = points3d[3 * i + 1]!, z = points3d[3 * i + 2]!;
+    const q0 = R[0]! * x + R[1]! * y + R[2]! * z + T.t[0]!;
+    const q1 = R[3]! * x + R[4]! * y + R[5]! * z + T.t[1]!;
+    const q2 = R[6]! * x + R[7]! * y + R[8]! * z + T.t[2]!;
+    if (!(q0 * bearings[3 * i]! + q1 * bearings[3 * i + 1]! + q2 * bearings[3 * i + 2]! > 0)) return false;
+  }
+  return true;
+}
