@@ -11,11 +11,13 @@ import { processIo, type CliContext, type CliIo, type RegisterCommand } from './
 import { reportError } from './report-error.js';
 import { registerSchema } from './schema.js';
 import { registerValidate } from './validate.js';
+import { registerSolve } from './solve.js';
+import { registerSimulate } from './simulate.js';
 
 export const VERSION = '0.1.0';
 
 /** Every command, one registration function each (src/cli/<command>.ts). */
-export const COMMANDS: RegisterCommand[] = [registerValidate, registerSchema];
+export const COMMANDS: RegisterCommand[] = [registerSolve, registerSimulate, registerValidate, registerSchema];
 
 /** Builds a fresh program bound to `ctx` (a new one per run: commander keeps state). */
 export function createProgram(ctx: CliContext): Command {
