@@ -26,6 +26,7 @@ export const DEFAULT_CAPTURE: CapturePlan = Object.freeze({
   minVisibleFraction: 1,
   maxViewAngleDeg: 70,
   seed: 1,
+  pairFraction: 0.7,
   rigMotionM: [1, 1, 0.2] as [number, number, number],
   rigYawDeg: 60,
 });
@@ -81,6 +82,35 @@ function rotationBetween(a: Float64Array, b: Float64Array): Float64Array {
   return so3Exp([(angle * axis[0]!) / s, (angle * axis[1]!) / s, (angle * axis[2]!) / s]);
 }
 
+/** Half the horizontal field of view, radians (angle of the image's left and right edge centres). */
+function halfFieldOfView(model: ReturnType<typeof cameraModel>, params: Float64Array, res: [number, number]): number {
+  const ray = new Float64Array(3);
+  let best = 0;
+  for (const x of [0, res[0] - 1]) {
+    if (model.unproject(params, [x, 0.5 * (res[1] - 1)], ray)) best = Math.max(best, Math.acos(Math.max(-1, Math.min(1, ray[2]! / norm3(ray)))));
+  }
+  return best > 0 ? best : Math.PI / 4;
+}
+
+/** Optical axis (+z of the camera) in the body frame. */
+function opticalAxis(c: { T_body_cam: Pose }): Float64Array {
+  const R = c.T_body_cam.R;
+  return Float64Array.from([R[2]!, R[5]!, R[8]!]);
+}
+
+function axisAngle(a: { T_body_cam: Pose }, b: { T_body_cam: Pose }): number {
+  const x = opticalAxis(a);
+  const y = opticalAxis(b);
+  return Math.acos(Math.max(-1, Math.min(1, x[0]! * y[0]! + x[1]! * y[1]! + x[2]! * y[2]!)));
+}
+
+function targetCentroid(target: { spec: { points: Float64Array; numPoints: number } }): Float64Array {
+  const c = new Float64Array(3);
+  const n = target.spec.numPoints;
+  for (let i = 0; i < n; i++) for (let k = 0; k < 3; k++) c[k]! += target.spec.points[3 * i + k]! / n;
+  return c;
+}
+
 export function simulate(desc: RigDescription, planOverrides: Partial<CapturePlan> = {}): Simulation {
   const plan: CapturePlan = { ...DEFAULT_CAPTURE, ...(desc.capture ?? {}), ...planOverrides };
   const u = rng(plan.seed);
@@ -97,6 +127,7 @@ export function simulate(desc: RigDescription, planOverrides: Partial<CapturePla
     h: c.spec.resolution[1],
     T_body_cam: c.T_body_cam,
     T_cam_body: inverse(c.T_body_cam),
+    halfFov: halfFieldOfView(cameraModel(c.spec.model), c.spec.params, c.spec.resolution),
   }));
   const cosMaxView = Math.cos((plan.maxViewAngleDeg * Math.PI) / 180);
   const detections: SimulatedDetection[] = [];
@@ -105,26 +136,24 @@ export function simulate(desc: RigDescription, planOverrides: Partial<CapturePla
   const p = new Float64Array(3);
   let emptyFrames = 0;
 
-  /** Records the views of one target at pose T_body_target (body frame of this frame's rig pose). */
-  const observe = (frame: string, target: RigDescription['targets'][number], T_body_target: Pose): number => {
+  type Cam = (typeof cams)[number];
+  type Target = RigDescription['targets'][number];
+  type Trial = { camera: string; rows: SimulatedDetection[] }[];
+
+  /** The views one target at T_body_target would give (no noise yet). */
+  const observeTrial = (frame: string, target: Target, T_body_target: Pose): Trial => {
     const pts = target.spec.points;
     const n = target.spec.numPoints;
-    let seen = 0;
+    const centroid = targetCentroid(target);
+    const trial: Trial = [];
     for (const cam of cams) {
       const T_cam_target = compose(cam.T_cam_body, T_body_target);
       // Printed side: the camera centre must be on the target's −z side.
       const camInTarget = act(inverse(T_cam_target), [0, 0, 0]);
       if (target.spec.kind === 'checkerboard' && camInTarget[2]! >= 0) continue;
       // Viewing angle at the target centre.
-      let cx = 0, cy = 0, cz = 0;
-      for (let i = 0; i < n; i++) {
-        cx += pts[3 * i]!;
-        cy += pts[3 * i + 1]!;
-        cz += pts[3 * i + 2]!;
-      }
-      const centre = act(T_cam_target, [cx / n, cy / n, cz / n]);
-      const nz = [T_cam_target.R[2]!, T_cam_target.R[5]!, T_cam_target.R[8]!];
-      const cosView = Math.abs(nz[0]! * centre[0]! + nz[1]! * centre[1]! + nz[2]! * centre[2]!) / norm3(centre);
+      const centre = act(T_cam_target, centroid);
+      const cosView = Math.abs(T_cam_target.R[2]! * centre[0]! + T_cam_target.R[5]! * centre[1]! + T_cam_target.R[8]! * centre[2]!) / norm3(centre);
       if (target.spec.kind === 'checkerboard' && cosView < cosMaxView) continue;
       const rows: SimulatedDetection[] = [];
       for (let i = 0; i < n; i++) {
@@ -134,16 +163,63 @@ export function simulate(desc: RigDescription, planOverrides: Partial<CapturePla
         rows.push({ frame, camera: cam.name, target: target.spec.name, point: i, u: uv[0]!, v: uv[1]! });
       }
       if (rows.length < Math.max(6, Math.ceil(plan.minVisibleFraction * n))) continue;
+      trial.push({ camera: cam.name, rows });
+    }
+    return trial;
+  };
+
+  /** Adds noise and records the views of a trial. */
+  const commit = (trial: Trial): void => {
+    for (const { rows } of trial) {
       for (const r of rows) {
         r.u += plan.pixelNoisePx * gaussian(u);
         r.v += plan.pixelNoisePx * gaussian(u);
       }
       const first = detections.length;
       for (const r of rows) detections.push(r);
-      views.push({ frame, camera: cam.name, target: target.spec.name, flipped: false, outliers: [], first, end: detections.length });
-      seen++;
+      const r0 = rows[0]!;
+      views.push({ frame: r0.frame, camera: r0.camera, target: r0.target, flipped: false, outliers: [], first, end: detections.length });
     }
-    return seen;
+  };
+
+  /** Target rotation with +z along `dir` (facing back toward the cameras), tilted and turned in plane at random. */
+  const facing = (dir: Float64Array): Float64Array => {
+    const R_face = rotationBetween(Float64Array.from([0, 0, 1]), dir);
+    const tiltMax = (plan.tiltDeg * Math.PI) / 180;
+    const tiltAxis = uniform(u, 0, 2 * Math.PI);
+    const tilt = tiltMax * Math.sqrt(u());
+    const spin = uniform(u, -0.3, 0.3);
+    const R_tilt = so3Exp([tilt * Math.cos(tiltAxis), tilt * Math.sin(tiltAxis), 0]);
+    return mat3Mul(new Float64Array(9), R_face, mat3Mul(new Float64Array(9), R_tilt, so3Exp([0, 0, spin])));
+  };
+
+  /** Pose placing the target's centroid at `centre` with rotation R. */
+  const placed = (R: Float64Array, centre: ArrayLike<number>, target: Target): Pose => {
+    const Rc = act({ R, t: new Float64Array(3) }, targetCentroid(target));
+    return { R, t: Float64Array.from([centre[0]! - Rc[0]!, centre[1]! - Rc[1]!, centre[2]! - Rc[2]!]) };
+  };
+
+  /** T_body_target for a target in front of one camera, at a random pixel and distance. */
+  const placeInView = (cam: Cam, target: Target): Pose | null => {
+    const px = [uniform(u, 0.1, 0.9) * cam.w, uniform(u, 0.1, 0.9) * cam.h];
+    const ray = new Float64Array(3);
+    if (!cam.model.unproject(cam.params, px, ray)) return null;
+    const dist = uniform(u, plan.distanceM[0], plan.distanceM[1]);
+    const T_cam_target = placed(facing(ray), [dist * ray[0]!, dist * ray[1]!, dist * ray[2]!], target);
+    return compose(cam.T_body_cam, T_cam_target);
+  };
+
+  /** T_body_target for a target in the overlap of two cameras: along the mean of their optical axes. */
+  const placeBetween = (c: Cam, k: Cam, target: Target): Pose => {
+    const ac = opticalAxis(c);
+    const ak = opticalAxis(k);
+    const w = uniform(u, 0.3, 0.7);
+    const dir = Float64Array.from([0, 1, 2].map((i) => w * ac[i]! + (1 - w) * ak[i]! + uniform(u, -0.08, 0.08)));
+    const nd = norm3(dir);
+    for (let i = 0; i < 3; i++) dir[i]! /= nd;
+    const origin = [0, 1, 2].map((i) => 0.5 * (c.T_body_cam.t[i]! + k.T_body_cam.t[i]!));
+    const dist = uniform(u, plan.distanceM[0], plan.distanceM[1]);
+    return placed(facing(dir), origin.map((o, i) => o + dist * dir[i]!), target);
   };
 
   const T_origin_target = new Map<string, Pose>();
@@ -171,39 +247,45 @@ export function simulate(desc: RigDescription, planOverrides: Partial<CapturePla
       };
       const T_body_scene = inverse(T_scene_body);
       let seen = 0;
-      for (const t of desc.targets) seen += observe(frame, t, compose(T_body_scene, t.T_scene_target ?? poseIdentity()));
+      for (const t of desc.targets) {
+        const trial = observeTrial(frame, t, compose(T_body_scene, t.T_scene_target ?? poseIdentity()));
+        commit(trial);
+        seen += trial.length;
+      }
       if (seen === 0) emptyFrames++;
       continue;
     }
     const target = desc.targets[Math.floor(u() * desc.targets.length)]!;
+    let seen = 0;
+    // Most frames aim at the overlap of two cameras (so that the view graph
+    // links them); the rest place the target anywhere in one camera's view.
+    if (u() < plan.pairFraction && cams.length > 1) {
+      const c = cams[Math.floor(u() * cams.length)]!;
+      const partners = cams.filter((k) => k !== c && axisAngle(c, k) < 0.9 * (c.halfFov + k.halfFov));
+      if (partners.length > 0) {
+        const k = partners[Math.floor(u() * partners.length)]!;
+        for (let attempt = 0; attempt < 6 && seen < 2; attempt++) {
+          const T_body_target = placeBetween(c, k, target);
+          const trial = observeTrial(frame, target, T_body_target);
+          if (trial.length >= 2 || attempt === 5) {
+            commit(trial);
+            seen = trial.length;
+            break;
+          }
+        }
+        if (seen === 0) emptyFrames++;
+        continue;
+      }
+    }
     const cam = cams[Math.floor(u() * cams.length)]!;
-    // A random pixel (kept away from the border), a random distance along its ray.
-    const px = [uniform(u, 0.15, 0.85) * cam.w, uniform(u, 0.15, 0.85) * cam.h];
-    const ray = new Float64Array(3);
-    if (!cam.model.unproject(cam.params, px, ray)) {
+    const T_body_target = placeInView(cam, target);
+    if (!T_body_target) {
       emptyFrames++;
       continue;
     }
-    const dist = uniform(u, plan.distanceM[0], plan.distanceM[1]);
-    // Facing the camera (target +z along the ray), then tilted and turned in plane.
-    const R_face = rotationBetween(Float64Array.from([0, 0, 1]), ray);
-    const tiltMax = (plan.tiltDeg * Math.PI) / 180;
-    const tiltAxis = uniform(u, 0, 2 * Math.PI);
-    const tilt = tiltMax * Math.sqrt(u());
-    const spin = uniform(u, -0.3, 0.3);
-    const R_tilt = so3Exp([tilt * Math.cos(tiltAxis), tilt * Math.sin(tiltAxis), 0]);
-    const R = mat3Mul(new Float64Array(9), R_face, mat3Mul(new Float64Array(9), R_tilt, so3Exp([0, 0, spin])));
-    const pts = target.spec.points;
-    const n = target.spec.numPoints;
-    const c = [0, 0, 0];
-    for (let i = 0; i < n; i++) for (let k = 0; k < 3; k++) c[k]! += pts[3 * i + k]! / n;
-    const Rc = act({ R, t: new Float64Array(3) }, c);
-    const T_cam_target: Pose = {
-      R,
-      t: Float64Array.from([dist * ray[0]! - Rc[0]!, dist * ray[1]! - Rc[1]!, dist * ray[2]! - Rc[2]!]),
-    };
-    const seen = observe(frame, target, compose(cam.T_body_cam, T_cam_target));
-    if (seen === 0) emptyFrames++;
+    const trial = observeTrial(frame, target, T_body_target);
+    commit(trial);
+    if (trial.length === 0) emptyFrames++;
   }
 
   // Gross outliers: displaced by 5 to 40 px in a random direction.
