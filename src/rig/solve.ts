@@ -196,16 +196,6 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       const key = frameTargetKey(view, nt);
       const fv = frameValues.get(key);
       if (!fv) continue;
-      let fid = frameIds.get(key);
-      if (fid === undefined) {
-        fid = problem.addParameterBlock({
-          values: fv,
-          manifold: se3LeftManifold,
-          eliminate: true,
-          label: `frame ${session.frames[view.frame]} target ${session.targets[view.target]!.name}`,
-        });
-        frameIds.set(key, fid);
-      }
       const rows = Int32Array.from(Array.from(view.rows).filter((r) => !rejectedRow[r]));
       const { points, pixels } = viewData(session, view, rows);
       const w = new Float64Array(rows.length);
@@ -214,9 +204,10 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
         { param: 0, sign: -1 },
         { param: 1, sign: 1 },
       ];
+      const frameLabel = `frame ${session.frames[view.frame]} target ${session.targets[view.target]!.name}`;
       const block = new ViewResidual({
         model: models[view.camera]!,
-        parameterBlocks: [camIds[view.camera]!, fid],
+        parameterBlocks: [camIds[view.camera]!, -1],
         chain,
         intrinsicsParam: -1,
         intrinsics: intrinsics[view.camera]!,
@@ -225,6 +216,18 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
         invSigma: w,
         ...(loss ? { loss } : {}),
       });
+      if (!block.evaluate([camValues[view.camera]!, fv], new Float64Array(block.numResiduals), null, null)) {
+        // A point falls outside the camera model's valid region at the initial pose.
+        view.status = 'unprojectable';
+        view.reason = 'some of its points do not project into the camera at the initial pose (view at the edge of the valid field of view?)';
+        continue;
+      }
+      let fid = frameIds.get(key);
+      if (fid === undefined) {
+        fid = problem.addParameterBlock({ values: fv, manifold: se3LeftManifold, eliminate: true, label: frameLabel });
+        frameIds.set(key, fid);
+      }
+      (block.parameterBlocks as number[])[1] = fid;
       problem.addResidualBlock(block);
       blocks.push(block);
       blockViews.push(view);

@@ -12,7 +12,8 @@ export type ViewStatus =
   | 'pnp_outlier'
   | 'inconsistent'
   | 'disconnected'
-  | 'too_many_outliers';
+  | 'too_many_outliers'
+  | 'unprojectable';
 
 export interface View {
   index: number;
