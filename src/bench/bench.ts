@@ -1,0 +1,96 @@
+/**
+ * `npm run bench`: solves simulated rigs of three sizes and prints, for each,
+ * detections, LM iterations, total seconds (PnP, initialisation, every solve
+ * and the covariance), nanoseconds per detection per LM iteration, and peak
+ * resident memory. Each case runs in its own child process so that peak
+ * memory is per case. Targets on a 2-core machine: L under 1.5 s in total, at
+ * most 150 ns per detection per iteration, peak memory under 400 MB.
+ *
+ *   node dist/bench/bench.js            all cases
+ *   node dist/bench/bench.js --case L   one case (prints one JSON line)
+ */
+import { execFileSync } from 'node:child_process';
+import * as nodePath from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { loadRigDescription } from '../rig/description-file.js';
+import { simulate } from '../rig/simulate.js';
+import { sessionFromSimulation } from '../rig/simulate-session.js';
+import { solveRig } from '../rig/solve.js';
+
+const here = nodePath.dirname(fileURLToPath(import.meta.url));
+const rigsDir = nodePath.resolve(here, '..', '..', 'rigs');
+
+interface Case {
+  name: string;
+  rig: string;
+  frames: number;
+  label: string;
+}
+
+const CASES: Case[] = [
+  { name: 'S', rig: 'stereo-bench.yaml', frames: 40, label: '2 cameras, 40 frames' },
+  { name: 'M', rig: 'surround-6.yaml', frames: 300, label: '6 cameras, 300 frames' },
+  { name: 'L', rig: 'surround-6.yaml', frames: 2000, label: '6 cameras, 2000 frames' },
+];
+
+interface CaseResult {
+  name: string;
+  label: string;
+  detections: number;
+  iterations: number;
+  totalSeconds: number;
+  lmSeconds: number;
+  nsPerDetectionIteration: number;
+  peakRssMb: number;
+}
+
+function runCase(c: Case): CaseResult {
+  const desc = loadRigDescription(nodePath.join(rigsDir, c.rig));
+  const sim = simulate(desc, { frames: c.frames, seed: 1 });
+  const session = sessionFromSimulation(sim);
+  const t0 = performance.now();
+  const sol = solveRig(session);
+  const totalSeconds = (performance.now() - t0) / 1000;
+  let lmSeconds = 0;
+  let detIter = 0;
+  for (const st of sol.stages) {
+    lmSeconds += st.summary.totalSeconds;
+    detIter += (st.summary.numResiduals / 2) * Math.max(1, st.summary.iterations.length);
+  }
+  const used = sol.cameras.reduce((s, cam) => s + cam.detectionsUsed, 0);
+  return {
+    name: c.name,
+    label: c.label,
+    detections: used,
+    iterations: sol.iterations,
+    totalSeconds,
+    lmSeconds,
+    nsPerDetectionIteration: (lmSeconds * 1e9) / detIter,
+    peakRssMb: process.resourceUsage().maxRSS / 1024,
+  };
+}
+
+const argv = process.argv.slice(2);
+const only = argv.indexOf('--case');
+if (only >= 0) {
+  const c = CASES.find((k) => k.name === argv[only + 1]);
+  if (!c) {
+    process.stderr.write(`unknown case ${argv[only + 1]}; choose ${CASES.map((k) => k.name).join(', ')}\n`);
+    process.exit(2);
+  }
+  process.stdout.write(JSON.stringify(runCase(c)) + '\n');
+} else {
+  const self = fileURLToPath(import.meta.url);
+  console.log('rigsolve benchmark: simulated sessions solved end to end (PnP, initialisation, robust solve, rejection rounds, covariance)');
+  console.log('targets: L under 1.5 s in total, at most 150 ns per detection per LM iteration, peak RSS under 400 MB\n');
+  console.log('case  rig                        detections  iterations  total s   LM s   ns/det/iter  peak RSS MB');
+  for (const c of CASES) {
+    const out = execFileSync(process.execPath, [self, '--case', c.name], { encoding: 'utf8' });
+    const r = JSON.parse(out.trim().split('\n').pop()!) as CaseResult;
+    console.log(
+      `${r.name.padEnd(4)}  ${r.label.padEnd(25)}  ${String(r.detections).padStart(10)}  ${String(r.iterations).padStart(10)}  ${r.totalSeconds
+        .toFixed(3)
+        .padStart(7)}  ${r.lmSeconds.toFixed(3).padStart(5)}  ${r.nsPerDetectionIteration.toFixed(0).padStart(11)}  ${r.peakRssMb.toFixed(0).padStart(11)}`,
+    );
+  }
+}
