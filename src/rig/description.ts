@@ -34,6 +34,8 @@ export interface CapturePlan {
   /** Largest angle between the board normal and the viewing ray, degrees (views beyond are not detected). */
   maxViewAngleDeg: number;
   seed: number;
+  /** Seed of the pixel noise and outliers; defaults to one derived from `seed`. Vary it alone to keep the geometry. */
+  noiseSeed?: number;
   /** moving_targets: fraction of frames aimed at the overlap of two cameras. */
   pairFraction: number;
   /** fixed_targets: number of rig poses is `frames`; the rig moves within this box (m) around the origin. */

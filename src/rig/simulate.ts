@@ -114,6 +114,8 @@ function targetCentroid(target: { spec: { points: Float64Array; numPoints: numbe
 export function simulate(desc: RigDescription, planOverrides: Partial<CapturePlan> = {}): Simulation {
   const plan: CapturePlan = { ...DEFAULT_CAPTURE, ...(desc.capture ?? {}), ...planOverrides };
   const u = rng(plan.seed);
+  // Noise and outliers come from their own stream, so that a different noiseSeed keeps the capture geometry.
+  const un = rng(plan.noiseSeed ?? (plan.seed ^ 0x5bd1e995));
   const ref = desc.cameras.find((c) => c.spec.name === desc.referenceCamera);
   if (!ref) throw new Error(`reference camera ${desc.referenceCamera} is not among the cameras`);
   const T_ref_body = inverse(ref.T_body_cam);
@@ -172,8 +174,8 @@ export function simulate(desc: RigDescription, planOverrides: Partial<CapturePla
   const commit = (trial: Trial): void => {
     for (const { rows } of trial) {
       for (const r of rows) {
-        r.u += plan.pixelNoisePx * gaussian(u);
-        r.v += plan.pixelNoisePx * gaussian(u);
+        r.u += plan.pixelNoisePx * gaussian(un);
+        r.v += plan.pixelNoisePx * gaussian(un);
       }
       const first = detections.length;
       for (const r of rows) detections.push(r);
@@ -294,11 +296,11 @@ export function simulate(desc: RigDescription, planOverrides: Partial<CapturePla
     const viewOf = new Int32Array(detections.length);
     views.forEach((v, k) => viewOf.fill(k, v.first, v.end));
     for (let i = 0; i < detections.length; i++) {
-      if (u() >= plan.outlierFraction) continue;
+      if (un() >= plan.outlierFraction) continue;
       const d = detections[i]!;
       const cam = camByName.get(d.camera)!;
-      const a = uniform(u, 0, 2 * Math.PI);
-      const r = uniform(u, 5, 40);
+      const a = uniform(un, 0, 2 * Math.PI);
+      const r = uniform(un, 5, 40);
       d.u = Math.min(cam.w - 1, Math.max(0, d.u + r * Math.cos(a)));
       d.v = Math.min(cam.h - 1, Math.max(0, d.v + r * Math.sin(a)));
       views[viewOf[i]!]!.outliers.push(i);
