@@ -59,13 +59,28 @@ export function initialiseViewPoses(session: Session, views: View[], models: Cam
     }
     const model = models[view.camera]!;
     const intr = params[view.camera]!;
+    // Pixels the camera model cannot unproject (beyond the lens model's valid
+    // region: usually gross detections) are dropped from the view.
+    const d = session.detections;
+    const ray = new Float64Array(3);
+    const valid = Array.from(view.rows).filter((r) => model.unproject(intr, [d.u[r]!, d.v[r]!], ray));
+    if (valid.length < view.rows.length) {
+      if (valid.length < MIN_VIEW_POINTS) {
+        view.status = 'pnp_failed';
+        view.reason = `${view.rows.length - valid.length} of ${view.rows.length} pixels lie outside the valid region of the ${model.name} model of camera ${camName}`;
+        continue;
+      }
+      view.rows = Int32Array.from(valid);
+    }
     try {
       const { points, pixels } = viewData(session, view);
       let fit = solvePnP(model, intr, points, pixels);
+      // residualsPx holds (du, dv) per point.
       const res = fit.residualsPx;
-      const thr = Math.max(5 * median(Array.from(res)), 2);
+      const norms = Array.from({ length: res.length / 2 }, (_, k) => Math.hypot(res[2 * k]!, res[2 * k + 1]!));
+      const thr = Math.max(5 * median(norms), 2);
       const keep: number[] = [];
-      for (let k = 0; k < res.length; k++) if (res[k]! <= thr) keep.push(view.rows[k]!);
+      for (let k = 0; k < norms.length; k++) if (norms[k]! <= thr) keep.push(view.rows[k]!);
       if (keep.length < Math.max(MIN_VIEW_POINTS, Math.ceil(0.5 * view.rows.length))) {
         view.status = 'too_many_outliers';
         view.reason = `only ${keep.length} of ${view.rows.length} points agree with the PnP pose`;
