@@ -9,7 +9,6 @@ import {
   mat3Mul,
   mat3MulVec,
   mat3Transpose,
-  mat3TransposeMulVec,
   mat3Identity,
   type Mat3,
   type Vec3,
@@ -46,13 +45,16 @@ export function compose(T_a_b: Pose, T_b_c: Pose, out: Pose = poseIdentity(), J_
     for (let i = 0; i < 6; i++) J_Tac_Tab[i * 7] = 1;
   }
   if (J_Tac_Tbc) adjoint(T_a_b, J_Tac_Tbc);
-  const t = new Float64Array(3);
-  mat3MulVec(t, T_a_b.R, T_b_c.t);
-  t[0]! += T_a_b.t[0]!;
-  t[1]! += T_a_b.t[1]!;
-  t[2]! += T_a_b.t[2]!;
+  // Scalars first, so that out may alias either input without a temporary.
+  const R = T_a_b.R;
+  const bx = T_b_c.t[0]!, by = T_b_c.t[1]!, bz = T_b_c.t[2]!;
+  const tx = R[0]! * bx + R[1]! * by + R[2]! * bz + T_a_b.t[0]!;
+  const ty = R[3]! * bx + R[4]! * by + R[5]! * bz + T_a_b.t[1]!;
+  const tz = R[6]! * bx + R[7]! * by + R[8]! * bz + T_a_b.t[2]!;
   mat3Mul(out.R, T_a_b.R, T_b_c.R);
-  out.t.set(t);
+  out.t[0] = tx;
+  out.t[1] = ty;
+  out.t[2] = tz;
   return out;
 }
 
@@ -61,12 +63,15 @@ export function compose(T_a_b: Pose, T_b_c: Pose, out: Pose = poseIdentity(), J_
  * J_Tba_Tab (6x6, left perturbations of both): −Ad(T_a_b⁻¹).
  */
 export function inverse(T_a_b: Pose, out: Pose = poseIdentity(), J_Tba_Tab?: Float64Array): Pose {
-  const t = new Float64Array(3);
-  mat3TransposeMulVec(t, T_a_b.R, T_a_b.t);
+  const R = T_a_b.R;
+  const x = T_a_b.t[0]!, y = T_a_b.t[1]!, z = T_a_b.t[2]!;
+  const tx = -(R[0]! * x + R[3]! * y + R[6]! * z);
+  const ty = -(R[1]! * x + R[4]! * y + R[7]! * z);
+  const tz = -(R[2]! * x + R[5]! * y + R[8]! * z);
   mat3Transpose(out.R, T_a_b.R);
-  out.t[0] = -t[0]!;
-  out.t[1] = -t[1]!;
-  out.t[2] = -t[2]!;
+  out.t[0] = tx;
+  out.t[1] = ty;
+  out.t[2] = tz;
   if (J_Tba_Tab) {
     adjoint(out, J_Tba_Tab);
     for (let i = 0; i < 36; i++) J_Tba_Tab[i] = -J_Tba_Tab[i]!;
