@@ -62,7 +62,24 @@ export function rigCameraEntry(cam: CameraResult, rootName: string): RigCamera {
     rms_px: Number.isFinite(cam.rmsPx) ? cam.rmsPx : 0,
     detections_used: cam.detectionsUsed,
     detections_rejected: cam.detectionsRejected,
+    ...(cam.intrinsicsSolved && cam.intrinsicsCovariance ? intrinsicsSigma(cam) : {}),
   };
+}
+
+/**
+ * Extra fields for refined intrinsics: `intrinsics_sigma` maps each parameter
+ * name to its 1-sigma (px for fx fy cx cy, unitless for distortion; 0 for a
+ * parameter held fixed) and `intrinsics_covariance` is the full matrix,
+ * row-major in the formats.md parameter order.
+ */
+function intrinsicsSigma(cam: CameraResult): Record<string, unknown> {
+  const n = cam.model.numParams;
+  const C = cam.intrinsicsCovariance!;
+  const sigma: Record<string, number> = {};
+  cam.model.paramNames.forEach((name, i) => {
+    sigma[name] = Math.sqrt(Math.max(0, C[i * n + i]!));
+  });
+  return { intrinsics_sigma: sigma, intrinsics_covariance: Array.from(C, clean) };
 }
 
 export function buildRigFile(solution: RigSolution): RigFile {

@@ -41,6 +41,7 @@ import {
 } from './initialise.js';
 import { poseFromBlock, poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
 import { groupViews, viewData, type View } from './views.js';
+import { fixedIntrinsicIndices, initialiseIntrinsics, intrinsicsWarnings } from './intrinsics.js';
 
 /** sqrt of the 99.9 % quantile of χ² with 2 degrees of freedom: sqrt(−2 ln 0.001). */
 export const OUTLIER_SIGMAS = Math.sqrt(-2 * Math.log(0.001));
@@ -88,6 +89,10 @@ export interface CameraResult {
   covariance: Float64Array;
   model: CameraModel;
   intrinsics: Float64Array;
+  /** True when the intrinsics were refined in the joint solve. */
+  intrinsicsSolved: boolean;
+  /** Covariance of the intrinsics (numParams square, row-major, scaled by sigma0²), or null when held fixed. */
+  intrinsicsCovariance: Float64Array | null;
   rmsPx: number;
   detectionsUsed: number;
   detectionsRejected: number;
@@ -114,6 +119,8 @@ export interface RigSolution {
   warnings: string[];
   /** Spanning tree used for initialisation: parent camera index per camera (-1 for the reference). */
   initParent: number[];
+  /** T_ref_target per (frame, target) with at least one used view, keyed `${frame}\u0000${target}` by their names. */
+  framePoses: Map<string, Pose>;
   /** Per detection: true when used in the final solve. */
   detectionUsed: Uint8Array;
   /** Per detection: final reprojection error (du, dv) in px, NaN when not evaluated. */
@@ -133,6 +140,8 @@ interface BuiltProblem {
   blockViews: View[];
   /** Rows (detection indices) of each block, aligned with its residuals. */
   blockRows: Int32Array[];
+  /** Parameter block id of each camera's intrinsics, or -1 when they are held fixed. */
+  intrIds: number[];
 }
 
 /** Solves the rig. Throws InputError / RigSolveError with actionable messages. */
@@ -143,11 +152,17 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   const names = session.cameras.map((c) => c.name);
   const reference = names.indexOf(session.referenceCamera);
   const models = session.cameras.map((c) => cameraModel(c.model));
-  const intrinsics = session.cameras.map((c) => Float64Array.from(c.params));
+  const intrinsics: Float64Array[] = session.cameras.map((c) => Float64Array.from(c.params));
   const warnings: string[] = [];
+  const solvesIntrinsics = session.cameras.map((c) => c.solveIntrinsics);
 
-  // 1. Views and PnP.
+  // 1. Views, intrinsics not given in the session (Zhang's method), PnP.
   const views = groupViews(session);
+  session.cameras.forEach((cam, c) => {
+    if (!cam.intrinsicsGiven) {
+      intrinsics[c] = initialiseIntrinsics(session, views, c);
+    }
+  });
   o.onProgress?.('pnp', 0, views.length);
   initialiseViewPoses(session, views, models, intrinsics);
   o.onProgress?.('pnp', views.length, views.length);
@@ -187,6 +202,15 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     const camIds = camValues.map((v, c) =>
       problem.addParameterBlock({ values: v, manifold: se3LeftManifold, constant: c === reference, label: `camera ${names[c]}` }),
     );
+    const intrIds = intrinsics.map((v, c) =>
+      solvesIntrinsics[c]
+        ? problem.addParameterBlock({
+            values: v,
+            fixedTangentIndices: fixedIntrinsicIndices(session.cameras[c]!.fixedIntrinsics, models[c]!.paramNames),
+            label: `intrinsics ${names[c]}`,
+          })
+        : -1,
+    );
     const frameIds = new Map<number, number>();
     const blocks: ViewResidual[] = [];
     const blockViews: View[] = [];
@@ -207,16 +231,16 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       const frameLabel = `frame ${session.frames[view.frame]} target ${session.targets[view.target]!.name}`;
       const block = new ViewResidual({
         model: models[view.camera]!,
-        parameterBlocks: [camIds[view.camera]!, -1],
+        parameterBlocks: intrIds[view.camera]! >= 0 ? [camIds[view.camera]!, -1, intrIds[view.camera]!] : [camIds[view.camera]!, -1],
         chain,
-        intrinsicsParam: -1,
+        intrinsicsParam: intrIds[view.camera]! >= 0 ? 2 : -1,
         intrinsics: intrinsics[view.camera]!,
         points,
         pixels,
         invSigma: w,
         ...(loss ? { loss } : {}),
       });
-      if (!block.evaluate([camValues[view.camera]!, fv], new Float64Array(block.numResiduals), null, null)) {
+      if (!block.evaluate([camValues[view.camera]!, fv, intrinsics[view.camera]!], new Float64Array(block.numResiduals), null, null)) {
         // A point falls outside the camera model's valid region at the initial pose.
         view.status = 'unprojectable';
         view.reason = 'some of its points do not project into the camera at the initial pose (view at the edge of the valid field of view?)';
@@ -233,7 +257,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       blockViews.push(view);
       blockRows.push(rows);
     }
-    return { problem, blocks, blockViews, blockRows };
+    return { problem, blocks, blockViews, blockRows, intrIds };
   };
 
   const stages: { name: string; summary: SolveSummary }[] = [];
@@ -355,7 +379,11 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     const covariance = new Float64Array(36);
     for (let i = 0; i < 6; i++) for (let j = 0; j < 6; j++) covariance[i * 6 + j] = joint[(6 * c + i) * 6 * nc + 6 * c + j]!;
     const camViews = views.filter((v) => v.camera === c);
+    const intrId = built.intrIds[c]!;
+    const intrinsicsCovariance = intrId >= 0 ? cov.block(intrId).map((x) => x * s2) : null;
     return {
+      intrinsicsCovariance,
+      intrinsicsSolved: intrId >= 0,
       name,
       index: c,
       isReference: c === reference,
@@ -370,6 +398,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       viewsRejected: camViews.filter((v) => v.status !== 'used').length,
     };
   });
+  for (const cam of cameras) warnings.push(...intrinsicsWarnings(cam, session.cameras[cam.index]!.resolution));
   let totalSq = 0;
   let totalUsed = 0;
   for (let c = 0; c < nc; c++) {
@@ -377,6 +406,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     totalUsed += used[c]!;
   }
   const framesUsed = new Set(views.filter((v) => v.status === 'used').map((v) => v.frame)).size;
+  const usedKeys = new Set(views.filter((v) => v.status === 'used').map((v) => frameTargetKey(v, nt)));
   const rejectedViews: RejectedView[] = views
     .filter((v) => v.status !== 'used')
     .map((v) => ({
@@ -401,6 +431,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     rejectedViews,
     warnings,
     initParent: tree.parent,
+    framePoses: new Map(
+      [...frameValues].filter(([key]) => usedKeys.has(key)).map(([key, v]) => [
+        `${session.frames[Math.floor(key / nt)]}\u0000${session.targets[key % nt]!.name}`,
+        poseFromBlock(v),
+      ]),
+    ),
     detectionUsed,
     residualsPx,
   };
