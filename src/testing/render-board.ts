@@ -5,8 +5,8 @@
  * Scene: a planar checkerboard with `columns x rows` inner corners and square
  * side `squareM`, following formats.md (origin at inner corner 0, +x along a
  * row, +y along a column, point id = row·columns + column). Square (i, j),
- * covering x ∈ [i·s, (i+1)·s], y ∈ [j·s, (j+1)·s] for i ∈ [−1, columns],
- * j ∈ [−1, rows], is black iff (i + j) is even, so the square diagonally
+ * covering x ∈ [i·s, (i+1)·s], y ∈ [j·s, (j+1)·s] for i ∈ [−1, columns − 1],
+ * j ∈ [−1, rows − 1], is black iff (i + j) is even, so the square diagonally
  * outside corner 0 (i = j = −1) is black. A white quiet zone of width
  * `borderM` surrounds the squares; beyond it lies a flat background.
  *
@@ -234,7 +234,7 @@ export function renderBoard(cam: RenderCamera, board: RenderBoard, T_cam_board: 
   const c2t = c2x * t[0]! + c2y * t[1]! + c2z * t[2]!;
   const c3t = c3x * t[0]! + c3y * t[1]! + c3z * t[2]!;
   const xMin = -s - border, xMax = C * s + border, yMin = -s - border, yMax = Rw * s + border;
-  const nSqX = C + 2;
+  const nSqX = C + 1;
   // Label of a sample: 0 background, 1 quiet zone, 2 + square index.
   const labelAt = (x: number, y: number): number => {
     const den = c3x * x + c3y * y + c3z;
@@ -244,7 +244,7 @@ export function renderBoard(cam: RenderCamera, board: RenderBoard, T_cam_board: 
     const Y = lam * (c2x * x + c2y * y + c2z) - c2t;
     if (X < xMin || X >= xMax || Y < yMin || Y >= yMax) return 0;
     const i = Math.floor(X / s), j = Math.floor(Y / s);
-    if (i < -1 || i > C || j < -1 || j > Rw) return 1;
+    if (i < -1 || i >= C || j < -1 || j >= Rw) return 1;
     return 2 + (i + 1) + (j + 1) * nSqX;
   };
   const albedoOf = (label: number): number => {
