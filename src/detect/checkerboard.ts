@@ -39,7 +39,9 @@
  *    location of distinct points, corners and centres of circular features",
  *    1987): at a saddle c every image gradient g_p is orthogonal to p − c, so
  *    c solves (Σ w_p g_p g_pᵀ) c = Σ w_p g_p g_pᵀ p with Gaussian weights w_p
- *    centred on c; iterated to a step below 1e-3 px. The checker pattern is
+ *    centred on c (sigma 0.2 x the local corner spacing, clamped to
+ *    [1.2, 5] px), gradients by central differences of the smoothed image;
+ *    iterated to a step below 1e-3 px. The checker pattern is
  *    point-symmetric about the junction (also under perspective), so the
  *    fixed point is unbiased for any symmetric blur.
  *
@@ -589,6 +591,10 @@ export function detectCheckerboard(image: GreyImage, board: BoardSize, opts: Che
     }
     const spacing = median(dists);
     const refined = new Float64Array(corners.length);
+    // Gradients of the smoothed image: central differences on a sharp image
+    // are anisotropic (biased towards the pixel axes); the symmetric
+    // smoothing does not move the saddle.
+    const smoothImage: GreyImage = { width, height, data: smooth };
     const tmp = new Float64Array(2);
     let ok = true;
     for (let id = 0; id < C * Rn && ok; id++) {
@@ -601,7 +607,7 @@ export function detectCheckerboard(image: GreyImage, board: BoardSize, opts: Che
         local = Math.min(local, Math.hypot(corners[2 * id]! - corners[2 * j]!, corners[2 * id + 1]! - corners[2 * j + 1]!));
       }
       const sigmaW = Math.max(1.2, Math.min(5, 0.2 * local));
-      if (refineCorner(image, corners[2 * id]!, corners[2 * id + 1]!, sigmaW, opts.maxRefineIterations ?? 30, Math.max(2, 0.25 * local), tmp)) {
+      if (refineCorner(smoothImage, corners[2 * id]!, corners[2 * id + 1]!, sigmaW, opts.maxRefineIterations ?? 30, Math.max(2, 0.25 * local), tmp)) {
         refined[2 * id] = tmp[0]!;
         refined[2 * id + 1] = tmp[1]!;
       } else {

@@ -28,6 +28,7 @@
 import type { Pose } from '../geometry/se3.js';
 import type { GreyImage } from '../detect/image.js';
 import { gaussian, rng } from './numeric.js';
+import { gaussianBlur } from '../detect/checkerboard.js';
 
 export interface RenderCamera {
   width: number;
@@ -49,7 +50,7 @@ export interface RenderBoard {
 }
 
 export interface RenderOptions {
-  /** Supersampling per axis for pixels on an edge (default 4, i.e. 4x4). */
+  /** Supersampling: pixels on an edge get supersample² samples (default 12, i.e. 144). */
   supersample?: number;
   /** Gaussian blur sigma in pixels (default 0 = none). */
   blurSigmaPx?: number;
@@ -184,44 +185,12 @@ function cornerRays(cam: RenderCamera): RayGrid {
   return rayCache;
 }
 
-/** Separable Gaussian blur with edge clamping, in place. */
-export function gaussianBlurInPlace(data: Float32Array, width: number, height: number, sigmaPx: number): void {
-  if (!(sigmaPx > 0)) return;
-  const r = Math.max(1, Math.ceil(3 * sigmaPx));
-  const k = new Float32Array(2 * r + 1);
-  let s = 0;
-  for (let i = -r; i <= r; i++) s += k[i + r] = Math.exp((-i * i) / (2 * sigmaPx * sigmaPx));
-  for (let i = 0; i < k.length; i++) k[i]! /= s;
-  const tmp = new Float32Array(data.length);
-  for (let v = 0; v < height; v++) {
-    const row = v * width;
-    for (let u = 0; u < width; u++) {
-      let acc = 0;
-      for (let i = -r; i <= r; i++) {
-        const uu = u + i < 0 ? 0 : u + i >= width ? width - 1 : u + i;
-        acc += k[i + r]! * data[row + uu]!;
-      }
-      tmp[row + u] = acc;
-    }
-  }
-  for (let v = 0; v < height; v++) {
-    for (let u = 0; u < width; u++) {
-      let acc = 0;
-      for (let i = -r; i <= r; i++) {
-        const vv = v + i < 0 ? 0 : v + i >= height ? height - 1 : v + i;
-        acc += k[i + r]! * tmp[vv * width + u]!;
-      }
-      data[v * width + u] = acc;
-    }
-  }
-}
-
 /** Renders the board seen by the camera at pose T_cam_board (maps board points to camera). */
 export function renderBoard(cam: RenderCamera, board: RenderBoard, T_cam_board: Pose, opts: RenderOptions = {}): RenderResult {
   const { width, height } = cam;
   const C = board.columns, Rw = board.rows, s = board.squareM;
   const border = board.borderM ?? s;
-  const ss = opts.supersample ?? 4;
+  const ss = opts.supersample ?? 12;
   const black = opts.black ?? 0.08, white = opts.white ?? 0.92, bg = opts.background ?? 0.45;
   const rays = cornerRays(cam);
   const R = T_cam_board.R, t = T_cam_board.t;
@@ -247,6 +216,17 @@ export function renderBoard(cam: RenderCamera, board: RenderBoard, T_cam_board: 
     if (i < -1 || i >= C || j < -1 || j >= Rw) return 1;
     return 2 + (i + 1) + (j + 1) * nSqX;
   };
+  const albedoAt = (x: number, y: number): number => {
+    const den = c3x * x + c3y * y + c3z;
+    const lam = c3t / den;
+    if (!(lam > 0) || !Number.isFinite(lam)) return bg;
+    const X = lam * (c1x * x + c1y * y + c1z) - c1t;
+    const Y = lam * (c2x * x + c2y * y + c2z) - c2t;
+    if (X < xMin || X >= xMax || Y < yMin || Y >= yMax) return bg;
+    const i = Math.floor(X / s), j = Math.floor(Y / s);
+    if (i < -1 || i >= C || j < -1 || j >= Rw) return white;
+    return ((i + j) & 1) === 0 ? black : white;
+  };
   const albedoOf = (label: number): number => {
     if (label === 0) return bg;
     if (label === 1) return white;
@@ -258,7 +238,11 @@ export function renderBoard(cam: RenderCamera, board: RenderBoard, T_cam_board: 
   const labels = new Int32Array(W1 * (height + 1));
   for (let k = 0; k < labels.length; k++) labels[k] = rays.ok[k] ? labelAt(rays.x[k]!, rays.y[k]!) : -1;
   const img = new Float32Array(width * height);
-  const inv = 1 / ss;
+  // Regular ss x ss sample grid. A near-axis-aligned edge makes the coverage
+  // errors of neighbouring pixels correlated (steps of 1/ss), which shifts
+  // the rendered corner slightly; with ss = 12 the detected corners move by
+  // about 0.001 px RMS (0.01 px at worst) between ss = 12 and ss = 24
+  // (measured), well below the detector's own error.
   for (let v = 0; v < height; v++) {
     for (let u = 0; u < width; u++) {
       const k00 = v * W1 + u, k10 = k00 + 1, k01 = k00 + W1, k11 = k01 + 1;
@@ -272,17 +256,18 @@ export function renderBoard(cam: RenderCamera, board: RenderBoard, T_cam_board: 
         continue;
       }
       let acc = 0;
+      const x00 = rays.x[k00]!, x10 = rays.x[k10]!, x01 = rays.x[k01]!, x11 = rays.x[k11]!;
+      const y00 = rays.y[k00]!, y10 = rays.y[k10]!, y01 = rays.y[k01]!, y11 = rays.y[k11]!;
       for (let sy = 0; sy < ss; sy++) {
-        const fy = (sy + 0.5) * inv;
+        const fy = (sy + 0.5) / ss;
+        const xl = x00 + fy * (x01 - x00), xr = x10 + fy * (x11 - x10);
+        const yl = y00 + fy * (y01 - y00), yr = y10 + fy * (y11 - y10);
         for (let sx = 0; sx < ss; sx++) {
-          const fx = (sx + 0.5) * inv;
-          const w00 = (1 - fx) * (1 - fy), w10 = fx * (1 - fy), w01 = (1 - fx) * fy, w11 = fx * fy;
-          const x = w00 * rays.x[k00]! + w10 * rays.x[k10]! + w01 * rays.x[k01]! + w11 * rays.x[k11]!;
-          const y = w00 * rays.y[k00]! + w10 * rays.y[k10]! + w01 * rays.y[k01]! + w11 * rays.y[k11]!;
-          acc += albedoOf(labelAt(x, y));
+          const fx = (sx + 0.5) / ss;
+          acc += albedoAt(xl + fx * (xr - xl), yl + fx * (yr - yl));
         }
       }
-      img[v * width + u] = acc * inv * inv;
+      img[v * width + u] = acc / (ss * ss);
     }
   }
   const L = opts.lighting;
@@ -297,17 +282,17 @@ export function renderBoard(cam: RenderCamera, board: RenderBoard, T_cam_board: 
       }
     }
   }
-  gaussianBlurInPlace(img, width, height, opts.blurSigmaPx ?? 0);
+  const blurred = gaussianBlur(img, width, height, opts.blurSigmaPx ?? 0);
   const gamma = opts.gamma ?? 1;
   const noise = opts.noiseSigma ?? 0;
   const rand = rng(opts.seed ?? 1);
   const quantize = opts.quantize ?? true;
   for (let k = 0; k < img.length; k++) {
-    let val = Math.max(0, img[k]!);
+    let val = Math.max(0, blurred[k]!);
     if (gamma !== 1) val = Math.pow(val, 1 / gamma);
     if (noise > 0) val += noise * gaussian(rand);
     val = Math.min(255, Math.max(0, val * 255));
-    img[k] = quantize ? Math.round(val) : val;
+    blurred[k] = quantize ? Math.round(val) : val;
   }
 
   const cornersPx = new Float64Array(2 * C * Rw);
@@ -348,5 +333,5 @@ export function renderBoard(cam: RenderCamera, board: RenderBoard, T_cam_board: 
       }
     }
   }
-  return { image: { width, height, data: img }, cornersPx, allCornersInside: allInside, boardInside, minSquarePx: minSq };
+  return { image: { width, height, data: blurred }, cornersPx, allCornersInside: allInside, boardInside, minSquarePx: minSq };
 }
