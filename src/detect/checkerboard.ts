@@ -20,7 +20,11 @@
  *    two), which follows perspective and moderate radial distortion, and is
  *    accepted when a candidate lies within 0.3 of the local spacing.
  * 3. Checks: the grown grid must be exactly `columns x rows` inner corners
- *    (or its transpose); larger and smaller grids are rejected. Every pair of
+ *    (in either image direction); larger and smaller grids are rejected, so
+ *    a partly visible board or a board of another size is never reported.
+ *    A board may be declared in either order ([6, 9] for a 9 x 6 board):
+ *    the ids then follow the declared order, which is the same board turned
+ *    by 90°. Every pair of
  *    adjacent cells must have opposite colours with a clear contrast.
  * 4. Orientation of point ids (formats.md: id = row·columns + column):
  *    - +x (increasing column) runs along the side with `columns` corners;
@@ -30,7 +34,7 @@
  *      by corners 0, 1, columns, columns+1, is black.
  *    When columns + rows is odd these rules fix the ids. When it is even the
  *    pattern is symmetric under a 180° rotation (and under 90° when
- *    columns = rows is odd); the rules then leave 2 (or 4) labelings and we
+ *    columns = rows is even); the rules then leave 2 (or 4) labelings and we
  *    pick the one whose +x direction points most nearly along +u (the board is
  *    assumed not to be upside down), and report `ambiguous180: true` so that
  *    the solver's flip rejection can act.
