@@ -43,8 +43,10 @@
  *    location of distinct points, corners and centres of circular features",
  *    1987): at a saddle c every image gradient g_p is orthogonal to p − c, so
  *    c solves (Σ w_p g_p g_pᵀ) c = Σ w_p g_p g_pᵀ p with Gaussian weights w_p
- *    centred on c (sigma 0.2 x the local corner spacing, clamped to
- *    [1.2, 5] px), gradients by central differences of the smoothed image;
+ *    centred on c (sigma 0.2 x the distance to the nearest other edge,
+ *    estimated as the shorter neighbour spacing times the sine of the angle
+ *    between the grid lines, clamped to [1.2, 5] px; halved once if the
+ *    iteration wanders off), gradients by central differences of the smoothed image;
  *    iterated to a step below 1e-3 px. The checker pattern is
  *    point-symmetric about the junction (also under perspective), so the
  *    fixed point is unbiased for any symmetric blur.
@@ -516,14 +518,20 @@ function growGrid(ctx: DetectContext, seed: Grid, maxDim: number): Grid {
 
 /**
  * Gradient-orthogonality refinement of one corner (see file header). `sigmaW`
- * is the Gaussian window's sigma in px. Returns false when the normal
+ * is the Gaussian window's sigma in px (reduced so that the window fits in
+ * the image). Returns false when the normal
  * equations degenerate or the point wanders more than `maxShift` px.
  */
 export function refineCorner(img: GreyImage, x: number, y: number, sigmaW: number, maxIter: number, maxShift: number, out: Float64Array): boolean {
   const { width, height, data } = img;
-  const r = Math.ceil(3 * sigmaW);
+  // Near the image border the window shrinks (3 sigma must fit, with one
+  // pixel to spare for the moving centre) instead of failing.
+  const room = Math.floor(Math.min(x, y, width - 1 - x, height - 1 - y)) - 3;
+  if (room < 3) return false;
+  const sigma = Math.min(sigmaW, room / 3);
+  const r = Math.ceil(3 * sigma);
   let cx = x, cy = y;
-  const inv2s2 = 1 / (2 * sigmaW * sigmaW);
+  const inv2s2 = 1 / (2 * sigma * sigma);
   for (let it = 0; it < maxIter; it++) {
     const u0 = Math.round(cx), v0 = Math.round(cy);
     if (u0 - r < 1 || v0 - r < 1 || u0 + r > width - 2 || v0 + r > height - 2) return false;
@@ -642,15 +650,27 @@ export function detectCheckerboard(image: GreyImage, board: BoardSize, opts: Che
     let ok = true;
     for (let id = 0; id < C * Rn && ok; id++) {
       const col = id % C, r = Math.floor(id / C);
+      // Window size from the distance to the nearest other edge: the shorter
+      // neighbour spacing times the sine of the angle between the grid lines
+      // (thin parallelograms in oblique views bring other edges closer).
       let local = Infinity;
+      let eH: [number, number] | undefined, eV: [number, number] | undefined;
       for (const [dc, dr] of [[1, 0], [-1, 0], [0, 1], [0, -1]] as const) {
         const cc = col + dc, rr = r + dr;
         if (cc < 0 || cc >= C || rr < 0 || rr >= Rn) continue;
         const j = rr * C + cc;
-        local = Math.min(local, Math.hypot(corners[2 * id]! - corners[2 * j]!, corners[2 * id + 1]! - corners[2 * j + 1]!));
+        const e: [number, number] = [corners[2 * j]! - corners[2 * id]!, corners[2 * j + 1]! - corners[2 * id + 1]!];
+        local = Math.min(local, Math.hypot(e[0], e[1]));
+        if (dc !== 0) eH ??= e;
+        else eV ??= e;
       }
-      const sigmaW = Math.max(1.2, Math.min(5, 0.2 * local));
-      if (refineCorner(smoothImage, corners[2 * id]!, corners[2 * id + 1]!, sigmaW, opts.maxRefineIterations ?? 30, Math.max(2, 0.25 * local), tmp)) {
+      const sinAngle = eH && eV ? Math.abs(eH[0] * eV[1] - eH[1] * eV[0]) / (Math.hypot(...eH) * Math.hypot(...eV)) : 1;
+      const reach = local * Math.max(0.3, sinAngle);
+      const maxIter = opts.maxRefineIterations ?? 30;
+      const x0 = corners[2 * id]!, y0 = corners[2 * id + 1]!;
+      const sigmaW = Math.max(1.2, Math.min(5, 0.2 * reach));
+      // A window that still reaches another edge can drag the estimate away; retry with half the window.
+      if (refineCorner(smoothImage, x0, y0, sigmaW, maxIter, Math.max(2, 0.25 * reach), tmp) || refineCorner(smoothImage, x0, y0, Math.max(1, sigmaW / 2), maxIter, Math.max(2, 0.25 * reach), tmp)) {
         refined[2 * id] = tmp[0]!;
         refined[2 * id + 1] = tmp[1]!;
       } else {
@@ -658,7 +678,7 @@ export function detectCheckerboard(image: GreyImage, board: BoardSize, opts: Che
       }
     }
     if (!ok) {
-      failure = { found: false, reason: 'no_grid', message: 'sub-pixel refinement failed at a corner too close to the image border' };
+      failure = { found: false, reason: 'no_grid', message: 'sub-pixel refinement did not converge at some corner (corner at the image border, or squares too small or too oblique)' };
       continue;
     }
     return {

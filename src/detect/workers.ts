@@ -62,7 +62,9 @@ export async function detectFiles(jobs: readonly DetectJob[], opts: DetectFilesO
     const workers: Worker[] = [];
     let next = 0;
     let failed = false;
+    let finished = false;
     const finish = (err?: Error): void => {
+      finished = true;
       for (const w of workers) void w.terminate();
       if (err) reject(err);
       else resolve(results);
@@ -85,9 +87,14 @@ export async function detectFiles(jobs: readonly DetectJob[], opts: DetectFilesO
         else feed(w);
       });
       w.on('error', (e) => {
-        if (failed) return;
+        if (failed || finished) return;
         failed = true;
         finish(e);
+      });
+      w.on('exit', (code) => {
+        if (failed || finished) return;
+        failed = true;
+        finish(new Error(`detection worker stopped unexpectedly (exit code ${code})`));
       });
       feed(w);
     }
