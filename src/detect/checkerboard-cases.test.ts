@@ -44,12 +44,19 @@ describe('symmetric boards: ids up to the reported ambiguity, resolved by the st
     { C: 8, R: 8, ambiguity: 'rot90', rotations: [0, 1, 2, 3] },
     { C: 7, R: 7, ambiguity: 'rot180', rotations: [0, 2] },
   ];
-  test.each(cases)('$C x $R inner corners → $ambiguity', ({ C, R, ambiguity, rotations }) => {
+  test.each([
+    ...cases.map((c) => ({ ...c, inverted: false })),
+    // Inverted print (white squares outside the corners): the colour rule cannot hold, the labelings
+    // that keep handedness remain (2 for 8 x 6, 4 for 8 x 8).
+    { C: 8, R: 6, ambiguity: 'rot180' as const, rotations: [0, 2], inverted: true },
+    { C: 8, R: 8, ambiguity: 'rot90' as const, rotations: [0, 1, 2, 3], inverted: true },
+  ])('$C x $R inner corners, inverted colours $inverted → $ambiguity', ({ C, R, ambiguity, rotations, inverted }) => {
     const board = { columns: C, rows: R, squareM: 0.03 };
     const u = rng(C * 100 + R);
-    for (let n = 0; n < 8; n++) {
+    for (let n = 0; n < 6; n++) {
       const T = sampleVisibleBoard(u, camera, board, { maxTiltRad: 0.6 });
-      const r = renderBoard(camera, board, T, { blurSigmaPx: 0.7, noiseSigma: 2 / 255, seed: n + 1 });
+      const colours = inverted ? { black: 0.92, white: 0.08 } : {};
+      const r = renderBoard(camera, board, T, { blurSigmaPx: 0.7, noiseSigma: 2 / 255, seed: n + 1, ...colours });
       const d = detectCheckerboard(r.image, board);
       expect(d.found).toBe(true);
       if (!d.found) continue;

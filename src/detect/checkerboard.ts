@@ -37,7 +37,10 @@
  *    columns = rows is even); the rules then leave 2 (or 4) labelings and we
  *    pick the one whose +x direction points most nearly along +u (the board is
  *    assumed not to be upside down), and report `ambiguous180: true` so that
- *    the solver's flip rejection can act.
+ *    the solver's flip rejection can act. A board printed with inverted
+ *    colours (white outside corner 0) is accepted only where that is
+ *    indistinguishable anyway (columns + rows even): the colour rule is then
+ *    dropped and the ambiguity reported.
  * 5. Sub-pixel refinement of every corner by gradient orthogonality
  *    (W. Förstner, E. Gülch, "A fast operator for detection and precise
  *    location of distinct points, corners and centres of circular features",
@@ -96,7 +99,7 @@ export interface CheckerboardFound {
   spacingPx: number;
 }
 
-export type CheckerboardFailureReason = 'no_corners' | 'no_grid' | 'wrong_size' | 'colour_check' | 'orientation';
+export type CheckerboardFailureReason = 'no_corners' | 'no_grid' | 'wrong_size' | 'colour_check';
 
 export interface CheckerboardNotFound {
   found: false;
@@ -626,10 +629,6 @@ export function detectCheckerboard(image: GreyImage, board: BoardSize, opts: Che
       continue;
     }
     const result = assignIds(ctx, g, C, Rn, colour.evenBright);
-    if (!result) {
-      failure = { found: false, reason: 'orientation', message: 'the grid cannot be labelled consistently (mirrored image?)' };
-      continue;
-    }
     // Sub-pixel refinement.
     const dists: number[] = [];
     const corners = result.corners;
@@ -700,8 +699,7 @@ export function detectCheckerboard(image: GreyImage, board: BoardSize, opts: Che
 /**
  * Chooses the labeling of grid g (g[b][a]) as board (column, row) following
  * the orientation rules in the file header. Returns the corner positions per
- * id and the remaining ambiguity, or undefined when no labeling satisfies
- * the rules.
+ * id and the remaining ambiguity.
  */
 function assignIds(
   ctx: DetectContext,
@@ -709,7 +707,7 @@ function assignIds(
   C: number,
   Rn: number,
   evenBright: boolean,
-): { corners: Float64Array; ambiguity: CheckerboardAmbiguity } | undefined {
+): { corners: Float64Array; ambiguity: CheckerboardAmbiguity } {
   const nb = g.length, na = g[0]!.length;
   const { x, y } = ctx.c;
   // Candidate labelings: (col, row) → (a, b).
@@ -737,6 +735,7 @@ function assignIds(
     return [x[k]!, y[k]!];
   };
   const valid: { m: Map; xDirU: number }[] = [];
+  const handed: { m: Map; xDirU: number }[] = [];
   for (const m of maps) {
     const p0 = P(m, 0, 0), px = P(m, C - 1, 0), py = P(m, 0, Rn - 1);
     const dx = [px[0] - p0[0], px[1] - p0[1]], dy = [py[0] - p0[0], py[1] - p0[1]];
@@ -746,10 +745,15 @@ function assignIds(
     const [a0, b0] = m(0, 0), [a1, b1] = m(1, 1);
     const parityEven = (Math.min(a0, a1) + Math.min(b0, b1)) % 2 === 0;
     const cellBlack = parityEven ? !evenBright : evenBright;
-    if (!cellBlack) continue;
-    valid.push({ m, xDirU: dx[0]! / Math.hypot(dx[0]!, dx[1]!) });
+    handed.push({ m, xDirU: dx[0]! / Math.hypot(dx[0]!, dx[1]!) });
+    if (cellBlack) valid.push(handed[handed.length - 1]!);
   }
-  if (valid.length === 0) return undefined;
+  // A board printed with inverted colours (white squares outside its corners)
+  // satisfies no labeling when columns + rows is even; all the handedness-
+  // preserving ones are then equally admissible and the ambiguity says so.
+  // (When columns + rows is odd one of them always satisfies the colour rule.)
+  if (valid.length === 0) valid.push(...handed);
+  // Of the four axis flips of a grid exactly two keep the handedness, so `valid` is never empty here.
   valid.sort((p, q) => q.xDirU - p.xDirU);
   const m = valid[0]!.m;
   const corners = new Float64Array(2 * C * Rn);
