@@ -407,7 +407,13 @@ function colourCheck(ctx: DetectContext, g: Grid): { evenBright: boolean; contra
 function seedAt(ctx: DetectContext, k: number): Grid | undefined {
   const { c, index } = ctx;
   const x0 = c.x[k]!, y0 = c.y[k]!;
-  const nbrs = index.kNearest(k, 12, 0.35 * Math.max(ctx.width, ctx.height));
+  // Grow the search radius until 12 neighbours are in reach (cheap in dense clutter).
+  const limit = 0.35 * Math.max(ctx.width, ctx.height);
+  let nbrs: number[] = [];
+  for (let radius = 24; nbrs.length < 12; radius *= 2) {
+    nbrs = index.kNearest(k, 12, Math.min(radius, limit));
+    if (radius >= limit) break;
+  }
   if (nbrs.length < 8) return undefined;
   // Opposite pairs (a, b) with a − c ≈ c − b.
   const pairs: { ex: number; ey: number; len: number; a: number; b: number }[] = [];

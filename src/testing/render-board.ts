@@ -30,6 +30,9 @@ import type { GreyImage } from '../detect/image.js';
 import { gaussian, rng } from './numeric.js';
 import { gaussianBlur } from '../detect/checkerboard.js';
 
+/** PNG writer for rendered images (grey, 8 bit). */
+export { encodePng } from '../detect/image.js';
+
 export interface RenderCamera {
   width: number;
   height: number;
