@@ -390,10 +390,9 @@ function colourCheck(ctx: DetectContext, g: Grid): { evenBright: boolean; contra
       if (b + 1 < cells.length) diffs.push(sgn * (cells[b]![a]! - cells[b + 1]![a]!));
     }
   }
-  if (diffs.length === 0) {
-    // A single cell: compare it with the mean of its four corners' surroundings is not possible; use the cell against the grid's mid-grey.
-    return undefined;
-  }
+  // A single cell has no neighbour to alternate with (declared sizes of at
+  // least 2 x 3 corners never get here with a full grid).
+  if (diffs.length === 0) return undefined;
   const pos = diffs.every((d) => d > 0), neg = diffs.every((d) => d < 0);
   if (!pos && !neg) return undefined;
   const mags = diffs.map(Math.abs).sort((p, q) => p - q);
