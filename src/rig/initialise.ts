@@ -248,16 +248,25 @@ export const CONSISTENCY_TRANSLATION_FRACTION = 0.05;
 
 /**
  * Step 4: T_ref_target per (frame, target) from its views, given camera
- * extrinsics. With two or more views, the largest set of mutually agreeing
- * views wins; a view outside it is set aside as inconsistent. When no two
- * views agree (e.g. two cameras, one with a flipped board), all views of
- * the group are set aside: with two views nothing says which one is wrong.
+ * extrinsics; see consensusPoses.
  */
 export function initialiseFramePoses(views: View[], numTargets: number, T_ref_cam: (Pose | null)[], cameraNames: string[]): FramePoseInit {
+  return consensusPoses(groupByFrameTarget(views, numTargets), (v) => compose(T_ref_cam[v.camera]!, v.T_cam_target!), cameraNames);
+}
+
+/**
+ * One pose per group of views (a frame, or a frame and target), each view
+ * proposing a candidate. With two or more views, the largest set of mutually
+ * agreeing candidates wins; a view outside it is set aside as inconsistent.
+ * When no two views agree (e.g. two cameras, one with a flipped board), all
+ * views of the group are set aside: with two views nothing says which one is
+ * wrong.
+ */
+export function consensusPoses(groups: Map<number, View[]>, candidate: (v: View) => Pose, cameraNames: string[]): FramePoseInit {
   const poses = new Map<number, Pose>();
   const inconsistent: View[] = [];
-  for (const [key, group] of groupByFrameTarget(views, numTargets)) {
-    const candidates = group.map((v) => compose(T_ref_cam[v.camera]!, v.T_cam_target!));
+  for (const [key, group] of groups) {
+    const candidates = group.map(candidate);
     if (group.length === 1) {
       poses.set(key, candidates[0]!);
       continue;
@@ -286,9 +295,9 @@ export function initialiseFramePoses(views: View[], numTargets: number, T_ref_ca
     if (bestSet.length < 2 || tie) {
       for (const v of group) {
         v.status = 'inconsistent';
-        v.reason = `the ${group.length} cameras that saw this target in this frame (${group
+        v.reason = `the ${group.length} views of this frame (cameras ${group
           .map((g) => cameraNames[g.camera])
-          .join(', ')}) disagree on its pose (a flipped or mislabelled detection?)`;
+          .join(', ')}) disagree on the target's pose (a flipped or mislabelled detection?)`;
         inconsistent.push(v);
       }
       continue;
@@ -297,9 +306,7 @@ export function initialiseFramePoses(views: View[], numTargets: number, T_ref_ca
       if (bestSet.includes(i)) continue;
       const v = group[i]!;
       v.status = 'inconsistent';
-      v.reason = `its target pose contradicts the other cameras in this frame (${bestSet
-        .map((k) => cameraNames[group[k]!.camera])
-        .join(', ')}) by more than 5° or 5 % of the distance (a board detected rotated by 180°?)`;
+      v.reason = `its target pose contradicts the other cameras in this frame (${[...new Set(bestSet.map((k) => cameraNames[group[k]!.camera]))].join(', ')}) by more than 5° or 5 % of the distance (a board detected rotated by 180°?)`;
       inconsistent.push(v);
     }
     poses.set(key, averagePosesRobust(bestSet.map((k) => candidates[k]!)).pose);

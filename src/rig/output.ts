@@ -9,6 +9,7 @@
 import { matrixToQuat, matrixToRpy } from '../geometry/rotation.js';
 import type { RigCamera, RigFile } from '../io/types.js';
 import type { CameraResult, RigSolution } from './solve.js';
+import type { Pose } from '../geometry/se3.js';
 
 export const RIG_FORMAT = 'rig-calibration/1';
 const DEG = 180 / Math.PI;
@@ -82,6 +83,28 @@ function intrinsicsSigma(cam: CameraResult): Record<string, unknown> {
   return { intrinsics_sigma: sigma, intrinsics_covariance: Array.from(C, clean) };
 }
 
+/**
+ * fixed_targets: a target's pose in the scene (the first target's frame) with
+ * the same fields and conventions as a camera entry: T_parent_target,
+ * covariance of its left perturbation in the parent frame.
+ */
+export function poseEntry(name: string, parent: string | null, T: Pose, cov: ArrayLike<number>): Record<string, unknown> {
+  const q = matrixToQuat(T.R);
+  const rpy = matrixToRpy(T.R);
+  const P = positionCovariance(T.t, cov);
+  const sqrt0 = (v: number) => Math.sqrt(Math.max(0, v));
+  return {
+    name,
+    parent,
+    translation: Array.from(T.t, clean),
+    quaternion_wxyz: Array.from(q, clean),
+    rpy_deg: Array.from(rpy, (x) => clean(x * DEG)),
+    sigma_translation_mm: [sqrt0(P[0]!) * 1000, sqrt0(P[4]!) * 1000, sqrt0(P[8]!) * 1000],
+    sigma_rotation_deg: [sqrt0(cov[0]!) * DEG, sqrt0(cov[7]!) * DEG, sqrt0(cov[14]!) * DEG],
+    covariance: Array.from(cov, clean),
+  };
+}
+
 export function buildRigFile(solution: RigSolution): RigFile {
   const s = solution.session;
   const root = s.cameras[solution.reference]!.name;
@@ -90,11 +113,13 @@ export function buildRigFile(solution: RigSolution): RigFile {
     entry.resolution = [...s.cameras[c.index]!.resolution];
     return entry;
   });
+  const targets = solution.targets.map((t, i) => poseEntry(t.name, i === 0 ? null : solution.targets[0]!.name, t.T_origin_target, t.covariance));
   return {
     format: RIG_FORMAT,
     name: s.name,
     root,
     cameras,
+    ...(targets.length > 0 ? { targets } : {}),
     quality: {
       rms_px: solution.rmsPx,
       sigma0: solution.sigma0,

@@ -12,6 +12,7 @@ import { rigFileToYaml, toCompactYaml } from '../io/rig-file.js';
 import { OptionsError } from '../errors.js';
 import type { RigCamera, RigFile, TargetSpec } from '../io/types.js';
 import type { Simulation } from './simulate.js';
+import { poseEntry } from './output.js';
 
 const DEG = 180 / Math.PI;
 
@@ -82,11 +83,16 @@ export function truthRig(sim: Simulation): RigFile {
       detections_rejected: 0,
     };
   });
+  const targets =
+    d.scene === 'fixed_targets'
+      ? d.targets.map((t, i) => poseEntry(t.spec.name, i === 0 ? null : d.targets[0]!.spec.name, sim.T_origin_target.get(t.spec.name)!, new Array(36).fill(0)))
+      : [];
   return {
     format: 'rig-calibration/1',
     name: `${d.name} (ground truth)`,
     root: d.referenceCamera,
     cameras,
+    ...(targets.length > 0 ? { targets } : {}),
     quality: { rms_px: 0, sigma0: 0, frames_used: 0, iterations: 0, converged: true },
   };
 }

@@ -17,7 +17,8 @@
  */
 import { cameraModel } from '../camera/registry.js';
 import type { CameraModel } from '../camera/model.js';
-import { adjoint, inverse, poseClone, se3LeftManifold, type Pose } from '../geometry/se3.js';
+import { adjoint, compose, inverse, poseClone, poseIdentity, se3LeftManifold, type Pose } from '../geometry/se3.js';
+import { initialiseFixedScene } from './initialise-fixed.js';
 import type { Session } from '../io/types.js';
 import {
   Problem,
@@ -34,6 +35,7 @@ import { RigSolveError } from './errors.js';
 import {
   MIN_VIEW_POINTS,
   buildViewGraph,
+  consensusPoses,
   frameTargetKey,
   initialiseFramePoses,
   initialiseViewPoses,
@@ -119,8 +121,13 @@ export interface RigSolution {
   warnings: string[];
   /** Spanning tree used for initialisation: parent camera index per camera (-1 for the reference). */
   initParent: number[];
-  /** T_ref_target per (frame, target) with at least one used view, keyed `${frame}\u0000${target}` by their names. */
+  /**
+   * moving_targets: T_ref_target per (frame, target) with a used view, keyed `${frame}\u0000${target}`;
+   * fixed_targets: T_origin_ref (the rig pose) per frame, keyed by the frame id.
+   */
   framePoses: Map<string, Pose>;
+  /** fixed_targets: each target's pose in the scene (the first target is the origin), covariance scaled by sigma0²; empty otherwise. */
+  targets: { name: string; T_origin_target: Pose; covariance: Float64Array }[];
   /** Per detection: true when used in the final solve. */
   detectionUsed: Uint8Array;
   /** Per detection: final reprojection error (du, dv) in px, NaN when not evaluated. */
@@ -142,6 +149,8 @@ interface BuiltProblem {
   blockRows: Int32Array[];
   /** Parameter block id of each camera's intrinsics, or -1 when they are held fixed. */
   intrIds: number[];
+  /** fixed_targets: parameter block id of each target pose (the first is constant). */
+  targetIds: number[];
 }
 
 /** Solves the rig. Throws InputError / RigSolveError with actionable messages. */
@@ -167,27 +176,54 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   initialiseViewPoses(session, views, models, intrinsics);
   o.onProgress?.('pnp', views.length, views.length);
 
-  // 2-3. View graph and spanning tree.
-  const edges = buildViewGraph(views, nc, nt);
-  const tree = spanningTree(edges, nc, reference, { R: Float64Array.from([1, 0, 0, 0, 1, 0, 0, 0, 1]), t: new Float64Array(3) });
-  checkConnected(session, views, tree.groups, reference);
-  for (let c = 0; c < nc; c++) {
-    if (c !== reference && tree.support[c] === 1) {
-      warnings.push(
-        `camera ${names[c]} is linked to the rest of the rig by a single frame (through ${names[tree.parent[c]!]}): its extrinsic rests on one view; capture more frames in which ${names[c]} and a neighbouring camera see the target at once`,
-      );
+  // 2-4. Camera extrinsics over the view graph, then frame (and target) poses
+  // with whole-view consistency.
+  const fixedScene = session.scene === 'fixed_targets';
+  /** Key of the eliminated pose a view depends on: (frame, target) for moving targets, the frame for fixed targets. */
+  const poseKey = (v: View): number => (fixedScene ? v.frame : frameTargetKey(v, nt));
+  let T_ref_cam: Pose[];
+  let initParent: number[];
+  const targetValues: Float64Array[] = [];
+  const frameValues = new Map<number, Float64Array>();
+  if (!fixedScene) {
+    const edges = buildViewGraph(views, nc, nt);
+    const tree = spanningTree(edges, nc, reference, poseIdentity());
+    checkConnected(session, views, tree.groups, reference);
+    for (let c = 0; c < nc; c++) {
+      if (c !== reference && tree.support[c] === 1) {
+        warnings.push(
+          `camera ${names[c]} is linked to the rest of the rig by a single frame (through ${names[tree.parent[c]!]}): its extrinsic rests on one view; capture more frames in which ${names[c]} and a neighbouring camera see the target at once`,
+        );
+      }
     }
+    T_ref_cam = tree.T_ref_cam.map((T) => T!);
+    initParent = tree.parent;
+    const frameInit = initialiseFramePoses(views, nt, T_ref_cam, names);
+    for (const [k, T] of frameInit.poses) frameValues.set(k, poseToBlock(T));
+  } else {
+    const init = initialiseFixedScene(views, nc, nt, reference);
+    checkFixedScenePlaced(session, views, init.T_ref_cam, init.T_origin_target);
+    T_ref_cam = init.T_ref_cam.map((T) => T!);
+    initParent = init.cameraParent;
+    init.T_origin_target.forEach((T) => targetValues.push(poseToBlock(T!)));
+    const byFrame = new Map<number, View[]>();
+    for (const v of views) {
+      if (v.status !== 'used') continue;
+      let g = byFrame.get(v.frame);
+      if (!g) byFrame.set(v.frame, (g = []));
+      g.push(v);
+    }
+    // Each view proposes the rig pose T_origin_ref = T_origin_target · T_cam_target⁻¹ · T_ref_cam⁻¹.
+    const frameInit = consensusPoses(
+      byFrame,
+      (v) => compose(init.T_origin_target[v.target]!, inverse(compose(T_ref_cam[v.camera]!, v.T_cam_target!))),
+      names,
+    );
+    for (const [k, T] of frameInit.poses) frameValues.set(k, poseToBlock(T));
   }
-  const T_ref_cam = tree.T_ref_cam.map((T) => T!);
-
-  // 4. Frame poses and whole-view consistency.
-  const frameInit = initialiseFramePoses(views, nt, T_ref_cam, names);
-  const framePoses = frameInit.poses;
 
   // Parameter storage shared by every problem we build (the engine updates it in place).
   const camValues = T_ref_cam.map((T) => poseToBlock(T));
-  const frameValues = new Map<number, Float64Array>();
-  for (const [k, T] of framePoses) frameValues.set(k, poseToBlock(T));
 
   const d = session.detections;
   const invSigma = new Float64Array(d.count);
@@ -211,36 +247,52 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
           })
         : -1,
     );
+    const targetIds = targetValues.map((v, t) =>
+      problem.addParameterBlock({ values: v, manifold: se3LeftManifold, constant: t === 0, label: `target ${session.targets[t]!.name}` }),
+    );
     const frameIds = new Map<number, number>();
     const blocks: ViewResidual[] = [];
     const blockViews: View[] = [];
     const blockRows: Int32Array[] = [];
     for (const view of views) {
       if (view.status !== 'used') continue;
-      const key = frameTargetKey(view, nt);
+      const key = poseKey(view);
       const fv = frameValues.get(key);
       if (!fv) continue;
       const rows = Int32Array.from(Array.from(view.rows).filter((r) => !rejectedRow[r]));
       const { points, pixels } = viewData(session, view, rows);
       const w = new Float64Array(rows.length);
       for (let k = 0; k < rows.length; k++) w[k] = invSigma[rows[k]!]!;
-      const chain: ChainFactor[] = [
-        { param: 0, sign: -1 },
-        { param: 1, sign: 1 },
-      ];
-      const frameLabel = `frame ${session.frames[view.frame]} target ${session.targets[view.target]!.name}`;
+      // moving targets: T_cam_target = T_ref_cam⁻¹ · T_ref_target(frame, target)
+      // fixed targets:  T_cam_target = T_ref_cam⁻¹ · T_origin_ref(frame)⁻¹ · T_origin_target
+      const chain: ChainFactor[] = fixedScene
+        ? [
+            { param: 0, sign: -1 },
+            { param: 1, sign: -1 },
+            { param: 2, sign: 1 },
+          ]
+        : [
+            { param: 0, sign: -1 },
+            { param: 1, sign: 1 },
+          ];
+      const poseParams = fixedScene ? [camIds[view.camera]!, -1, targetIds[view.target]!] : [camIds[view.camera]!, -1];
+      const poseValues = fixedScene ? [camValues[view.camera]!, fv, targetValues[view.target]!] : [camValues[view.camera]!, fv];
+      const frameLabel = fixedScene
+        ? `rig pose in frame ${session.frames[view.frame]}`
+        : `frame ${session.frames[view.frame]} target ${session.targets[view.target]!.name}`;
+      const withIntr = intrIds[view.camera]! >= 0;
       const block = new ViewResidual({
         model: models[view.camera]!,
-        parameterBlocks: intrIds[view.camera]! >= 0 ? [camIds[view.camera]!, -1, intrIds[view.camera]!] : [camIds[view.camera]!, -1],
+        parameterBlocks: withIntr ? [...poseParams, intrIds[view.camera]!] : poseParams,
         chain,
-        intrinsicsParam: intrIds[view.camera]! >= 0 ? 2 : -1,
+        intrinsicsParam: withIntr ? poseParams.length : -1,
         intrinsics: intrinsics[view.camera]!,
         points,
         pixels,
         invSigma: w,
         ...(loss ? { loss } : {}),
       });
-      if (!block.evaluate([camValues[view.camera]!, fv, intrinsics[view.camera]!], new Float64Array(block.numResiduals), null, null)) {
+      if (!block.evaluate([...poseValues, intrinsics[view.camera]!], new Float64Array(block.numResiduals), null, null)) {
         // A point falls outside the camera model's valid region at the initial pose.
         view.status = 'unprojectable';
         view.reason = 'some of its points do not project into the camera at the initial pose (view at the edge of the valid field of view?)';
@@ -257,7 +309,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       blockViews.push(view);
       blockRows.push(rows);
     }
-    return { problem, blocks, blockViews, blockRows, intrIds };
+    return { problem, blocks, blockViews, blockRows, intrIds, targetIds };
   };
 
   const stages: { name: string; summary: SolveSummary }[] = [];
@@ -327,7 +379,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       }
     }
     if (summary && newlyRejected === 0) break;
-    checkConnected(session, views, connectedGroups(views, nc, nt, reference), reference);
+    checkConnected(session, views, connectedGroups(views, nc, poseKey, reference), reference);
     built = build(undefined);
     summary = runStage(round === 0 ? 'least squares' : `least squares (round ${round + 1})`, built);
   }
@@ -406,7 +458,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     totalUsed += used[c]!;
   }
   const framesUsed = new Set(views.filter((v) => v.status === 'used').map((v) => v.frame)).size;
-  const usedKeys = new Set(views.filter((v) => v.status === 'used').map((v) => frameTargetKey(v, nt)));
+  const usedKeys = new Set(views.filter((v) => v.status === 'used').map(poseKey));
   const rejectedViews: RejectedView[] = views
     .filter((v) => v.status !== 'used')
     .map((v) => ({
@@ -430,10 +482,15 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     stages,
     rejectedViews,
     warnings,
-    initParent: tree.parent,
+    initParent,
+    targets: targetValues.map((v, t) => ({
+      name: session.targets[t]!.name,
+      T_origin_target: poseFromBlock(v),
+      covariance: t === 0 ? new Float64Array(36) : cov.block(built.targetIds[t]!).map((x) => x * s2),
+    })),
     framePoses: new Map(
       [...frameValues].filter(([key]) => usedKeys.has(key)).map(([key, v]) => [
-        `${session.frames[Math.floor(key / nt)]}\u0000${session.targets[key % nt]!.name}`,
+        fixedScene ? session.frames[key]! : `${session.frames[Math.floor(key / nt)]}\u0000${session.targets[key % nt]!.name}`,
         poseFromBlock(v),
       ]),
     ),
@@ -449,13 +506,13 @@ function countRejected(rows: Int32Array, rejected: Uint8Array): number {
 }
 
 /** Connected camera groups over the views still in use. */
-function connectedGroups(views: View[], nc: number, nt: number, reference: number): number[][] {
+function connectedGroups(views: View[], nc: number, poseKey: (v: View) => number, reference: number): number[][] {
   const parent = Array.from({ length: nc }, (_, i) => i);
   const find = (x: number): number => (parent[x] === x ? x : (parent[x] = find(parent[x]!)));
   const byKey = new Map<number, number>();
   for (const v of views) {
     if (v.status !== 'used') continue;
-    const k = frameTargetKey(v, nt);
+    const k = poseKey(v);
     const other = byKey.get(k);
     if (other === undefined) byKey.set(k, v.camera);
     else parent[find(v.camera)] = find(other);
@@ -470,6 +527,21 @@ function connectedGroups(views: View[], nc: number, nt: number, reference: numbe
   const list = [...groups.values()];
   list.sort((a, b) => (a.includes(reference) ? -1 : b.includes(reference) ? 1 : a[0]! - b[0]!));
   return list;
+}
+
+/** fixed_targets: every camera and target must be placed by the initialisation. */
+function checkFixedScenePlaced(session: Session, views: View[], T_ref_cam: (Pose | null)[], T_origin_target: (Pose | null)[]): void {
+  checkConnected(session, views, [], 0);
+  const cams = session.cameras.filter((_, c) => !T_ref_cam[c]).map((c) => c.name);
+  const tgts = session.targets.filter((_, t) => !T_origin_target[t]).map((t) => t.name);
+  if (cams.length === 0 && tgts.length === 0) return;
+  const parts: string[] = [];
+  if (tgts.length) parts.push(`target${tgts.length > 1 ? 's' : ''} ${tgts.join(', ')} cannot be placed relative to ${session.targets[0]!.name} (the scene origin)`);
+  if (cams.length) parts.push(`camera${cams.length > 1 ? 's' : ''} ${cams.join(', ')} cannot be placed relative to ${session.referenceCamera}`);
+  throw new RigSolveError(
+    'rig.disconnected',
+    `${parts.join('; ')}: capture frames in which one camera sees two targets at once, and frames in which two cameras see the same target`,
+  );
 }
 
 /** Throws a RigSolveError naming the groups and what to capture when the cameras are not all linked. */
