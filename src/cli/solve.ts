@@ -8,8 +8,9 @@ import { loadSession } from '../io/session.js';
 import { writeRigFile } from '../io/rig-file.js';
 import { buildRigFile } from '../rig/output.js';
 import { solveRig } from '../rig/solve.js';
+import { loadRigDescription } from '../rig/description-file.js';
 import { solveSummaryJson, solveSummaryText } from '../report/summary.js';
-import { EXIT_FAILED } from '../errors.js';
+import { EXIT_FAILED, OptionsError } from '../errors.js';
 import type { CliContext } from './context.js';
 
 export function registerSolve(program: Command, ctx: CliContext): void {
@@ -26,17 +27,20 @@ export function registerSolve(program: Command, ctx: CliContext): void {
     .requiredOption('--out <rig.yaml>', 'rig file to write')
     .option('--force', 'overwrite --out if it exists')
     .option('--loss <name>', 'robust loss of the first joint solve: huber, cauchy or none', 'huber')
+    .option('--prior <rig-description>', 'design prior: a rig description (see rigs/) whose cameras carry sigma_position_mm and sigma_rotation_deg')
     .option('--json', 'print the summary as JSON instead of a table')
     .option('--quiet', 'no iteration log on stderr')
-    .action((sessionPath: string, o: { out: string; force?: boolean; loss: string; json?: boolean; quiet?: boolean }) => {
+    .action((sessionPath: string, o: { out: string; force?: boolean; loss: string; json?: boolean; quiet?: boolean; prior?: string }) => {
       if (!['huber', 'cauchy', 'none'].includes(o.loss)) {
-        throw new (class extends Error {})(`unknown --loss "${o.loss}"`);
+        throw new OptionsError('options.loss', `unknown --loss "${o.loss}": choose huber, cauchy or none`);
       }
       const session = loadSession(sessionPath);
+      const prior = o.prior ? loadRigDescription(o.prior) : undefined;
       const log = o.quiet ? undefined : (line: string) => ctx.err(line);
       log?.(`loaded ${sessionPath}: ${session.cameras.length} cameras, ${session.frames.length} frames, ${session.detections.count} detections`);
       const solution = solveRig(session, {
         loss: o.loss as 'huber' | 'cauchy' | 'none',
+        ...(prior ? { prior } : {}),
         ...(log
           ? {
               onIteration: (stage, r) =>

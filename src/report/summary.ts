@@ -71,6 +71,12 @@ export function solveSummaryText(rig: RigFile, solution: RigSolution, outPath?: 
     `RMS ${f(q.rms_px, 3)} px · sigma0 ${f(q.sigma0, 3)} · ${q.frames_used} frames · ${q.iterations} iterations · ${q.converged ? 'converged' : 'NOT converged'} (${solution.summary.message})`,
   );
   out.push('±: 1-sigma from the covariance scaled by sigma0²; sigma0 near 1 means the stated pixel noise matches the residuals.');
+  const priorRows = solution.cameras.filter((c) => c.sigmasFromDesign !== undefined);
+  if (priorRows.length > 0) {
+    out.push('');
+    out.push('design prior: how far the data moved each camera from its design (whitened distance, in sigmas of the design):');
+    for (const c of priorRows) out.push(`  ${c.name.padEnd(16)} ${c.sigmasFromDesign!.toFixed(2)} σ${c.sigmasFromDesign! > 3 ? '  ← far from the design: check the mounting or the drawing' : ''}`);
+  }
   if (solution.rejectedViews.length > 0) {
     out.push('');
     out.push(`${solution.rejectedViews.length} view(s) set aside:`);
@@ -111,6 +117,7 @@ export function solveSummaryJson(rig: RigFile, solution: RigSolution, outPath?: 
       detections_used: c.detections_used,
       detections_rejected: c.detections_rejected,
     })),
+    design_prior_sigmas: Object.fromEntries(solution.cameras.filter((c) => c.sigmasFromDesign !== undefined).map((c) => [c.name, c.sigmasFromDesign])),
     rejected_views: solution.rejectedViews,
     warnings: solution.warnings,
     caution: SAFETY_CAUTION,

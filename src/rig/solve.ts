@@ -19,6 +19,9 @@ import { cameraModel } from '../camera/registry.js';
 import type { CameraModel } from '../camera/model.js';
 import { adjoint, compose, inverse, poseClone, poseIdentity, se3LeftManifold, type Pose } from '../geometry/se3.js';
 import { initialiseFixedScene } from './initialise-fixed.js';
+import { PriorResidual } from './prior.js';
+import { designPoses, mergeGroupsCoveredByPrior } from './design.js';
+import type { RigDescription } from './description.js';
 import type { Session } from '../io/types.js';
 import {
   Problem,
@@ -59,6 +62,12 @@ export interface RigSolveOptions {
   maxRejectionRounds: number;
   /** Options passed to the LM engine. */
   lm: Partial<LmOptions>;
+  /**
+   * Design prior: a rig description whose cameras carry sigma_position_mm and
+   * sigma_rotation_deg. Used to place cameras the view graph cannot reach and
+   * as Gaussian prior residuals in the joint solve.
+   */
+  prior?: RigDescription;
   /** Iteration log: stage name and the engine's record. */
   onIteration?: (stage: string, record: IterationRecord) => void;
   /** Progress of long stages (PnP over many views). */
@@ -91,6 +100,8 @@ export interface CameraResult {
   covariance: Float64Array;
   model: CameraModel;
   intrinsics: Float64Array;
+  /** With a design prior: whitened distance of the solved pose from the design (how many sigmas the data moved it). */
+  sigmasFromDesign?: number;
   /** True when the intrinsics were refined in the joint solve. */
   intrinsicsSolved: boolean;
   /** Covariance of the intrinsics (numParams square, row-major, scaled by sigma0²), or null when held fixed. */
@@ -147,6 +158,8 @@ interface BuiltProblem {
   blockViews: View[];
   /** Rows (detection indices) of each block, aligned with its residuals. */
   blockRows: Int32Array[];
+  /** Residual block id of each view block in the problem. */
+  blockIds: number[];
   /** Parameter block id of each camera's intrinsics, or -1 when they are held fixed. */
   intrIds: number[];
   /** fixed_targets: parameter block id of each target pose (the first is constant). */
@@ -164,6 +177,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   const intrinsics: Float64Array[] = session.cameras.map((c) => Float64Array.from(c.params));
   const warnings: string[] = [];
   const solvesIntrinsics = session.cameras.map((c) => c.solveIntrinsics);
+  const design = o.prior ? designPoses(o.prior, session, warnings) : names.map(() => null);
 
   // 1. Views, intrinsics not given in the session (Zhang's method), PnP.
   const views = groupViews(session);
@@ -188,7 +202,16 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   if (!fixedScene) {
     const edges = buildViewGraph(views, nc, nt);
     const tree = spanningTree(edges, nc, reference, poseIdentity());
-    checkConnected(session, views, tree.groups, reference);
+    // Cameras the view graph cannot reach are placed at their design pose when the prior has one.
+    for (let c = 0; c < nc; c++) {
+      if (!tree.T_ref_cam[c] && design[c]) {
+        tree.T_ref_cam[c] = design[c]!.T;
+        warnings.push(
+          `camera ${names[c]} shares no frame with the rest of the rig: its extrinsic comes from the design prior alone (±${(design[c]!.sigmaPositionM * 1000).toFixed(1)} mm, ±${((design[c]!.sigmaRotationRad * 180) / Math.PI).toFixed(2)}°); capture frames in which it and a neighbouring camera see the target at once`,
+        );
+      }
+    }
+    checkConnected(session, views, mergeGroupsCoveredByPrior(tree.groups, reference, design), reference);
     for (let c = 0; c < nc; c++) {
       if (c !== reference && tree.support[c] === 1) {
         warnings.push(
@@ -224,6 +247,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
 
   // Parameter storage shared by every problem we build (the engine updates it in place).
   const camValues = T_ref_cam.map((T) => poseToBlock(T));
+  const priorBlocks: (PriorResidual | null)[] = names.map(() => null);
 
   const d = session.detections;
   const invSigma = new Float64Array(d.count);
@@ -247,6 +271,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
           })
         : -1,
     );
+    design.forEach((dsg, c) => {
+      if (!dsg || c === reference) return;
+      const prior = new PriorResidual(camIds[c]!, dsg.T, dsg.sigmaRotationRad, dsg.sigmaPositionM);
+      problem.addResidualBlock(prior);
+      priorBlocks[c] = prior;
+    });
     const targetIds = targetValues.map((v, t) =>
       problem.addParameterBlock({ values: v, manifold: se3LeftManifold, constant: t === 0, label: `target ${session.targets[t]!.name}` }),
     );
@@ -254,6 +284,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     const blocks: ViewResidual[] = [];
     const blockViews: View[] = [];
     const blockRows: Int32Array[] = [];
+    const blockIds: number[] = [];
     for (const view of views) {
       if (view.status !== 'used') continue;
       const key = poseKey(view);
@@ -304,12 +335,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
         frameIds.set(key, fid);
       }
       (block.parameterBlocks as number[])[1] = fid;
-      problem.addResidualBlock(block);
+      blockIds.push(problem.addResidualBlock(block));
       blocks.push(block);
       blockViews.push(view);
       blockRows.push(rows);
     }
-    return { problem, blocks, blockViews, blockRows, intrIds, targetIds };
+    return { problem, blocks, blockViews, blockRows, blockIds, intrIds, targetIds };
   };
 
   const stages: { name: string; summary: SolveSummary }[] = [];
@@ -330,7 +361,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     const out: { rows: Int32Array; e: Float64Array }[] = [];
     for (let b = 0; b < built.blocks.length; b++) {
       const block = built.blocks[b]!;
-      const params = built.problem.residualParams(b);
+      const params = built.problem.residualParams(built.blockIds[b]!);
       const r = new Float64Array(block.numResiduals);
       if (!block.evaluate(params, r, null, null)) r.fill(Infinity);
       const e = new Float64Array(r.length / 2);
@@ -379,7 +410,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       }
     }
     if (summary && newlyRejected === 0) break;
-    checkConnected(session, views, connectedGroups(views, nc, poseKey, reference), reference);
+    checkConnected(session, views, mergeGroupsCoveredByPrior(connectedGroups(views, nc, poseKey, reference), reference, design), reference);
     built = build(undefined);
     summary = runStage(round === 0 ? 'least squares' : `least squares (round ${round + 1})`, built);
   }
@@ -410,7 +441,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   for (let b = 0; b < built.blocks.length; b++) {
     const block = built.blocks[b]!;
     const rows = built.blockRows[b]!;
-    const params = built.problem.residualParams(b);
+    const params = built.problem.residualParams(built.blockIds[b]!);
     const r = new Float64Array(block.numResiduals);
     block.evaluate(params, r, null, null);
     const c = built.blockViews[b]!.camera;
@@ -433,7 +464,9 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     const camViews = views.filter((v) => v.camera === c);
     const intrId = built.intrIds[c]!;
     const intrinsicsCovariance = intrId >= 0 ? cov.block(intrId).map((x) => x * s2) : null;
+    const prior = priorBlocks[c];
     return {
+      ...(prior ? { sigmasFromDesign: prior.sigmasFromDesign(camValues[c]!) } : {}),
       intrinsicsCovariance,
       intrinsicsSolved: intrId >= 0,
       name,
