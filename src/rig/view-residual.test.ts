@@ -1,0 +1,134 @@
+/**
+ * The view residual's factored Jacobian (J_inner · M_k) against central
+ * finite differences through each parameter block's update rule.
+ */
+import { describe, expect, test } from 'vitest';
+import { cameraModel } from '../camera/registry.js';
+import { compose, se3Exp, poseToArray12, se3LeftManifold, type Pose } from '../geometry/se3.js';
+import { expectMatrixClose, gaussian, numericJacobian, rng } from '../testing/numeric.js';
+import { ViewResidual, type ChainFactor } from './view-residual.js';
+
+const u = rng(17);
+const pose = (rot: number, trans: number, t0: number[] = [0, 0, 0]): Pose => {
+  const T = se3Exp([rot * gaussian(u), rot * gaussian(u), rot * gaussian(u), trans * gaussian(u), trans * gaussian(u), trans * gaussian(u)]);
+  for (let i = 0; i < 3; i++) T.t[i]! += t0[i]!;
+  return T;
+};
+
+interface Case {
+  name: string;
+  model: 'pinhole' | 'brown-conrady' | 'kannala-brandt';
+  intr: number[];
+  chain: ChainFactor[];
+  withIntrinsics: boolean;
+}
+
+const cases: Case[] = [
+  {
+    name: 'moving targets: T_ref_cam⁻¹ · T_ref_target, brown-conrady, intrinsics free',
+    model: 'brown-conrady',
+    intr: [600, 610, 320, 240, -0.2, 0.05, 0.001, -0.001, 0.01],
+    chain: [
+      { param: 0, sign: -1 },
+      { param: 1, sign: 1 },
+    ],
+    withIntrinsics: true,
+  },
+  {
+    name: 'fixed targets: T_ref_cam⁻¹ · T_origin_ref⁻¹ · T_origin_target, kannala-brandt',
+    model: 'kannala-brandt',
+    intr: [300, 300, 500, 500, 0.02, -0.004, 0.0005, -0.0001],
+    chain: [
+      { param: 0, sign: -1 },
+      { param: 1, sign: -1 },
+      { param: 2, sign: 1 },
+    ],
+    withIntrinsics: false,
+  },
+  {
+    name: 'fixed targets with intrinsics, pinhole',
+    model: 'pinhole',
+    intr: [500, 500, 320, 240],
+    chain: [
+      { param: 0, sign: -1 },
+      { param: 1, sign: -1 },
+      { param: 2, sign: 1 },
+    ],
+    withIntrinsics: true,
+  },
+];
+
+describe('ViewResidual Jacobian', () => {
+  test.each(cases)('$name', (c) => {
+    const model = cameraModel(c.model);
+    const nPose = c.chain.length;
+    // Poses chosen so that the target sits about 1.5 m in front of the camera.
+    const T_ref_cam = pose(0.2, 0.1);
+    const blocks: Float64Array[] = [poseToArray12(T_ref_cam)];
+    if (nPose === 2) {
+      // T_ref_target = T_ref_cam · (target 1.5 m ahead)
+      const ahead = pose(0.2, 0.05, [-0.2, -0.1, 1.5]);
+      blocks.push(poseToArray12(compose(T_ref_cam, ahead)));
+    } else {
+      const T_origin_ref = pose(0.3, 0.5);
+      const ahead = pose(0.2, 0.05, [-0.2, -0.1, 1.5]);
+      blocks.push(poseToArray12(T_origin_ref));
+      blocks.push(poseToArray12(compose(compose(T_origin_ref, T_ref_cam), ahead)));
+    }
+    const nPts = 7;
+    const points = Float64Array.from({ length: 3 * nPts }, (_, i) => (i % 3 === 2 ? 0.05 * gaussian(u) : 0.3 * gaussian(u)));
+    const pixels = Float64Array.from({ length: 2 * nPts }, () => 300 + 50 * gaussian(u));
+    const invSigma = Float64Array.from({ length: nPts }, () => 1 / (0.5 + u()));
+    const intr = Float64Array.from(c.intr);
+    const params = c.withIntrinsics ? [...blocks, intr] : blocks;
+    const block = new ViewResidual({
+      model,
+      parameterBlocks: params.map((_, i) => i),
+      chain: c.chain,
+      intrinsicsParam: c.withIntrinsics ? nPose : -1,
+      intrinsics: intr,
+      points,
+      pixels,
+      invSigma,
+    });
+    const m = block.numResiduals;
+    const inner = block.innerSize;
+    const J = new Float64Array(m * inner);
+    const maps = params.map((p, k) => new Float64Array(inner * (k < nPose ? 6 : p.length)));
+    expect(block.evaluate(params, new Float64Array(m), J, maps)).toBe(true);
+    params.forEach((p, k) => {
+      const tk = k < nPose ? 6 : p.length;
+      // Analytic: J_inner · M_k
+      const A = new Float64Array(m * tk);
+      for (let r = 0; r < m; r++) for (let v = 0; v < tk; v++) {
+        let s = 0;
+        for (let a = 0; a < inner; a++) s += J[r * inner + a]! * maps[k]![a * tk + v]!;
+        A[r * tk + v] = s;
+      }
+      const f = (x: Float64Array) => {
+        const ps = params.slice();
+        ps[k] = x;
+        const r = new Float64Array(m);
+        block.evaluate(ps, r, null, null);
+        return r;
+      };
+      const N = numericJacobian(f, p, tk, (x, i, h) => {
+        if (k < nPose) {
+          const d = new Float64Array(6);
+          d[i] = h;
+          const out = new Float64Array(12);
+          se3LeftManifold.plus(x, d, out);
+          return out;
+        }
+        const y = Float64Array.from(x);
+        y[i]! += h * Math.max(1, Math.abs(y[i]!));
+        return y;
+      }, 1e-6);
+      if (k >= nPose) {
+        // Undo the per-coordinate step scaling used for the intrinsics.
+        for (let r = 0; r < m; r++) for (let v = 0; v < tk; v++) N[r * tk + v]! /= Math.max(1, Math.abs(p[v]!));
+      }
+      expectMatrixClose(A, N, { rel: 1e-6 }, `J_r_block${k}`);
+    });
+  });
+});
