@@ -24,7 +24,7 @@ import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { PnpError } from './errors.js';
 import { epnp } from './epnp.js';
 import { planarPose, PLANAR_MAX_ANGLE_RAD } from './planar.js';
-import { refinePose, type RefineOptions } from './refine.js';
+import { refinePose, type RefineResult, type RefineOptions } from './refine.js';
 
 export { PnpError, type PnpErrorCode } from './errors.js';
 export { estimateHomography, applyHomography, type HomographyResult, type HomographyFailure } from './homography.js';
@@ -45,6 +45,13 @@ export interface PnpOptions {
   maxRmsPx?: number;
   /** Options of the LM refinement. */
   refine?: RefineOptions;
+  /**
+   * When set, a planar initial pose whose refinement reaches an RMS at or
+   * below this many pixels is accepted without also trying EPnP (faster on
+   * many views; EPnP still runs when the planar path fails or fits worse).
+   * Default: undefined (every applicable initialiser is refined, the best kept).
+   */
+  acceptPlanarRmsPx?: number;
 }
 
 export interface PnpResult {
@@ -123,7 +130,7 @@ export function solvePnP(
   }
   const ratio3 = sig[2]! / sig[0]!;
 
-  const initial: { pose: Pose; method: PnpMethod }[] = [];
+  const initial: { pose: Pose; method: PnpMethod; refined?: RefineResult }[] = [];
   const failures: { reason: string; message: string }[] = [];
   if (ratio3 < planarRatio) {
     // Plane frame P: origin at the centroid, axes the principal directions (right-handed).
@@ -144,14 +151,23 @@ export function solvePnP(
       planeXY.push(q[0]! * e1[0]! + q[1]! * e1[1]! + q[2]! * e1[2]!, q[0]! * e2[0]! + q[1]! * e2[1]! + q[2]! * e2[2]!);
       normXY.push(bearings[3 * i]! / fz, bearings[3 * i + 1]! / fz);
     }
+    let planarGood = false;
     if (planeXY.length >= 8) {
       const pr = planarPose(planeXY, normXY);
-      if (pr.ok) initial.push({ pose: compose(pr.T_cam_plane, inverse(T_target_plane)), method: 'planar' });
-      else failures.push(pr);
+      if (pr.ok) {
+        const pose = compose(pr.T_cam_plane, inverse(T_target_plane));
+        if (options.acceptPlanarRmsPx !== undefined) {
+          const refined = refinePose(model, params, pose, points3d, pixels, options.refine);
+          initial.push({ pose, method: 'planar', refined });
+          planarGood = refined.status !== 'invalid_point' && refined.rmsPx <= options.acceptPlanarRmsPx && inFront(refined.T_cam_target, points3d, bearings, n);
+        } else initial.push({ pose, method: 'planar' });
+      } else failures.push(pr);
     }
-    const ep = epnp(points3d, bearings, true);
-    if (ep.ok) initial.push({ pose: ep.T_cam_target, method: 'epnp' });
-    else failures.push(ep);
+    if (!planarGood) {
+      const ep = epnp(points3d, bearings, true);
+      if (ep.ok) initial.push({ pose: ep.T_cam_target, method: 'epnp' });
+      else failures.push(ep);
+    }
   }
   if (ratio3 >= nonPlanarRatio) {
     const ep = epnp(points3d, bearings, false);
@@ -161,7 +177,7 @@ export function solvePnP(
 
   let best: PnpResult | undefined;
   for (const init of initial) {
-    const r = refinePose(model, params, init.pose, points3d, pixels, options.refine);
+    const r = init.refined ?? refinePose(model, params, init.pose, points3d, pixels, options.refine);
     if (r.status === 'invalid_point' || !Number.isFinite(r.rmsPx)) {
       failures.push({ reason: 'behind_camera', message: r.message });
       continue;

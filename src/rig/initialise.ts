@@ -28,6 +28,13 @@ import { viewData, type View } from './views.js';
 
 export const MIN_VIEW_POINTS = 6;
 
+/**
+ * PnP settings for initialisation: a planar fit within 2 px is taken without
+ * also trying EPnP, and refinement stops at a relative cost decrease of 1e-8
+ * (the joint solve refines everything afterwards).
+ */
+const INIT_PNP_OPTIONS = { acceptPlanarRmsPx: 2, refine: { functionTolerance: 1e-8, stepTolerance: 1e-10, maxIterations: 30 } };
+
 export interface PnpOutcome {
   used: number;
   setAside: number;
@@ -74,7 +81,7 @@ export function initialiseViewPoses(session: Session, views: View[], models: Cam
     }
     try {
       const { points, pixels } = viewData(session, view);
-      let fit = solvePnP(model, intr, points, pixels);
+      let fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
       // residualsPx holds (du, dv) per point.
       const res = fit.residualsPx;
       const norms = Array.from({ length: res.length / 2 }, (_, k) => Math.hypot(res[2 * k]!, res[2 * k + 1]!));
@@ -88,7 +95,7 @@ export function initialiseViewPoses(session: Session, views: View[], models: Cam
       }
       if (keep.length < view.rows.length) {
         const sub = viewData(session, view, keep);
-        fit = solvePnP(model, intr, sub.points, sub.pixels);
+        fit = solvePnP(model, intr, sub.points, sub.pixels, INIT_PNP_OPTIONS);
       }
       view.T_cam_target = fit.T_cam_target;
       view.pnpRmsPx = fit.rmsPx;
