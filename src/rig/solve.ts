@@ -149,7 +149,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   // 1. Views and PnP.
   const views = groupViews(session);
   o.onProgress?.('pnp', 0, views.length);
-  initialiseViewPoses(session, views, models, intrinsics);
+  initialiseViewPoses(session, views, models, intrinsics, o.onProgress ? (done, total) => o.onProgress!('pnp', done, total) : undefined);
   o.onProgress?.('pnp', views.length, views.length);
 
   // 2-3. View graph and spanning tree.
