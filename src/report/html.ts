@@ -157,7 +157,7 @@ function rigGeometry(solution: RigSolution): RigGeometry {
     extent = Math.max(extent, Math.hypot(a.T_ref_cam.t[0]! - b.T_ref_cam.t[0]!, a.T_ref_cam.t[1]! - b.T_ref_cam.t[1]!, a.T_ref_cam.t[2]! - b.T_ref_cam.t[2]!));
   }
   if (!(extent > 0)) extent = 0.2;
-  const frustumDepth = 0.3 * extent;
+  const frustumDepth = 0.22 * extent;
   const positions = cams.map((c) => positionCovariance(c.T_ref_cam.t, c.covariance));
   let maxSigma = 0;
   for (const P of positions) maxSigma = Math.max(maxSigma, Math.sqrt(Math.max(0, P[0]!, P[4]!, P[8]!)));
@@ -238,7 +238,30 @@ function rigView(solution: RigSolution, geo: RigGeometry, plane: Plane): string 
       );
     }
     parts.push(`<circle cx="${n(ax)}" cy="${n(ay)}" r="2.6" fill="${cameraColour(dr.cam.index)}"/>`);
-    parts.push(`<text class="cam-label" x="${n(ax + 6)}" y="${n(ay - 6)}" fill="${cameraColour(dr.cam.index)}">${esc(dr.cam.name)}${dr.cam.isReference ? ' (ref)' : ''}</text>`);
+  }
+  // Labels last, placed greedily at the first free spot around the camera (labels of nearby cameras would overlap).
+  const placed: [number, number, number, number][] = [];
+  for (const dr of drawn) {
+    const [ax, ay] = [X(dr.apex), Y(dr.apex)];
+    const text = `${dr.cam.name}${dr.cam.isReference ? ' (ref)' : ''}`;
+    const w = 7 * text.length;
+    const hgt = 13;
+    const spots: [number, number, 'start' | 'end'][] = [
+      [6, -6, 'start'], [6, 16, 'start'], [-6, -6, 'end'], [-6, 16, 'end'], [6, -20, 'start'], [6, 30, 'start'], [-6, -20, 'end'], [-6, 30, 'end'],
+    ];
+    let choice = spots[0]!;
+    for (const sp of spots) {
+      const x0 = sp[2] === 'start' ? ax + sp[0] : ax + sp[0] - w;
+      const y0 = ay + sp[1] - 10;
+      const free = placed.every(([a, b, c, e]) => x0 + w < a || x0 > c || y0 + hgt < b || y0 > e);
+      if (free) {
+        choice = sp;
+        break;
+      }
+    }
+    const x0 = choice[2] === 'start' ? ax + choice[0] : ax + choice[0] - w;
+    placed.push([x0, ay + choice[1] - 10, x0 + w, ay + choice[1] - 10 + hgt]);
+    parts.push(`<text class="cam-label" x="${n(ax + choice[0])}" y="${n(ay + choice[1])}" text-anchor="${choice[2]}" fill="${cameraColour(dr.cam.index)}">${esc(text)}</text>`);
   }
   // Scale bar (bottom left) and the plane's axes (bottom right).
   const worldBar = niceBelow((W - 2 * pad) / s / 4);
@@ -474,9 +497,9 @@ function frameChart(solution: RigSolution): string {
   const rms = Array.from({ length: nf }, (_, f) => (cnt[f]! > 0 ? Math.sqrt(sq[f]! / cnt[f]!) : NaN));
   const W = 900;
   const H = 220;
-  const l = 40, r = 10, t = 16, b = 30;
+  const l = 40, r = 10, t = 24, b = 30;
   const finite = rms.filter(Number.isFinite);
-  const maxR = Math.max(...finite, solution.rmsPx || 0, 1e-6) * 1.1;
+  const maxR = finite.reduce((a, x) => Math.max(a, x), Math.max(solution.rmsPx || 0, 1e-6)) * 1.1;
   const bw = (W - l - r) / Math.max(nf, 1);
   const Y = (x: number) => H - b - (x / maxR) * (H - t - b);
   let bars = '';
@@ -491,10 +514,10 @@ function frameChart(solution: RigSolution): string {
     }
     if (rej) {
       const cx = x + bw / 2;
-      marks += `<path class="rej-marker" d="M${n(cx)} ${n(t + 1)}l4 -7h-8z"><title>${esc(tip)}</title></path>`;
+      marks += `<path class="rej-marker" d="M${n(cx)} ${n(t - 1)}l4 -7h-8z"><title>${esc(tip)}</title></path>`;
     }
   }
-  const overall = Number.isFinite(solution.rmsPx) ? `<line class="rms-line" x1="${l}" y1="${n(Y(solution.rmsPx))}" x2="${W - r}" y2="${n(Y(solution.rmsPx))}"/><text class="tick" x="${W - r}" y="${n(Y(solution.rmsPx) - 3)}" text-anchor="end">overall RMS ${solution.rmsPx.toFixed(3)} px</text>` : '';
+  const overall = Number.isFinite(solution.rmsPx) ? `<line class="rms-line" x1="${l}" y1="${n(Y(solution.rmsPx))}" x2="${W - r}" y2="${n(Y(solution.rmsPx))}"/><text class="tick rms-label" x="${W - r}" y="10" text-anchor="end">- - overall RMS ${solution.rmsPx.toFixed(3)} px</text>` : '';
   const step = niceBelow(maxR / 3);
   let yt = '';
   for (let y = step; y <= maxR; y += step) yt += `<line class="grid" x1="${l}" y1="${n(Y(y))}" x2="${W - r}" y2="${n(Y(y))}"/><text class="tick" x="${l - 4}" y="${n(Y(y) + 3)}" text-anchor="end">${n(y)}</text>`;
@@ -530,13 +553,13 @@ function extrinsicsTable(rig: RigFile, solution: RigSolution): string {
       `<tr><th scope="row"><span class="swatch" style="background:${cameraColour(cam?.index ?? i)}"></span>${esc(c.name)}${c.parent === null ? ' <span class="tag">reference</span>' : ''}</th>` +
       `<td>${pm(t[0]!, st[0], 1, 2)}</td><td>${pm(t[1]!, st[1], 1, 2)}</td><td>${pm(t[2]!, st[2], 1, 2)}</td>` +
       `<td>${pm(c.rpy_deg[0], sr[0], 3, 3)}</td><td>${pm(c.rpy_deg[1], sr[1], 3, 3)}</td><td>${pm(c.rpy_deg[2], sr[2], 3, 3)}</td>` +
-      `<td>${esc(c.model)}</td><td>${fmt(c.rms_px, 3)}</td><td>${c.detections_used}</td><td>${c.detections_rejected}</td>` +
+      `<td>${fmt(c.rms_px, 3)}</td><td>${c.detections_used} / ${c.detections_rejected}</td>` +
       `<td>${cam ? `${cam.viewsUsed} / ${cam.viewsRejected}` : '—'}</td></tr>`
     );
   });
   return (
     `<div class="table-wrap"><table class="extrinsics" data-testid="extrinsics"><thead><tr><th>camera</th><th>x mm</th><th>y mm</th><th>z mm</th>` +
-    `<th>roll °</th><th>pitch °</th><th>yaw °</th><th>model</th><th>RMS px</th><th>detections used</th><th>rejected</th><th>views used / set aside</th></tr></thead>` +
+    `<th>roll °</th><th>pitch °</th><th>yaw °</th><th>RMS px</th><th>detections used / rejected</th><th>views used / set aside</th></tr></thead>` +
     `<tbody>${rows.join('')}</tbody></table></div>` +
     `<p class="note">Pose of each camera in the reference camera's optical frame (T_${esc(rig.root)}_camera: x right, y down, z forward); ` +
     `roll-pitch-yaw are fixed-axis X, Y, Z rotations (URDF). ± is 1-sigma from the covariance scaled by sigma0²; position sigmas are along the reference axes.</p>`
@@ -554,10 +577,11 @@ function solverTable(solution: RigSolution): string {
   });
   const f = solution.summary;
   return (
-    `<div class="table-wrap"><table class="solver" data-testid="solver"><thead><tr><th>stage</th><th>iterations</th><th>steps accepted / rejected</th><th>initial cost</th><th>final cost</th><th>termination</th><th>time s</th><th>criterion</th></tr></thead>` +
+    `<div class="table-wrap"><table class="solver" data-testid="solver"><thead><tr><th>stage</th><th>iterations</th><th>steps accepted / rejected</th><th>initial cost</th><th>final cost</th><th>termination</th><th>time s</th><th class="msg">criterion</th></tr></thead>` +
     `<tbody>${rows.join('')}</tbody></table></div>` +
-    `<p class="note">Final problem: ${f.numResiduals} residuals, ${f.numFreeParameters} free parameters, ${f.numResidualBlocks} views, ` +
-    `${f.numEliminatedBlocks} frame poses eliminated by the Schur complement. Cost = ½ Σ (whitened residual)².</p>`
+    `<p class="note">Final problem: ${f.numResiduals} residuals, ${f.numFreeParameters} free parameters, ${f.numResidualBlocks} views` +
+    (f.numEliminatedBlocks > 0 ? `, ${f.numEliminatedBlocks} frame poses eliminated by the Schur complement` : ', each frame pose fitted on its own') +
+    `. Cost = ½ Σ (whitened residual)².</p>`
   );
 }
 
@@ -567,9 +591,9 @@ function rejectedTable(solution: RigSolution): string {
   const list = solution.rejectedViews;
   if (list.length === 0) return `<p class="ok-line">No views were set aside.</p>`;
   const shown = list.slice(0, MAX_REJECTED_ROWS);
-  const rows = shown.map((v) => `<tr><td>${esc(v.frame)}</td><td>${esc(v.camera)}</td><td>${esc(v.target)}</td><td>${esc(v.status)}</td><td class="msg">${esc(v.reason)}</td></tr>`).join('');
+  const rows = shown.map((v) => `<tr><td>${esc(v.frame)}</td><td class="txt">${esc(v.camera)}</td><td class="txt">${esc(v.target)}</td><td class="txt">${esc(v.status)}</td><td class="msg">${esc(v.reason)}</td></tr>`).join('');
   return (
-    `<div class="table-wrap"><table class="rejected" data-testid="rejected-views"><thead><tr><th>frame</th><th>camera</th><th>target</th><th>status</th><th>reason</th></tr></thead><tbody>${rows}</tbody></table></div>` +
+    `<div class="table-wrap"><table class="rejected" data-testid="rejected-views"><thead><tr><th>frame</th><th class="msg">camera</th><th class="msg">target</th><th class="msg">status</th><th class="msg">reason</th></tr></thead><tbody>${rows}</tbody></table></div>` +
     (list.length > shown.length ? `<p class="note">… and ${list.length - shown.length} more (see the command's --json output).</p>` : '')
   );
 }
@@ -619,6 +643,7 @@ svg{display:block;width:100%;height:auto}
 .fbar.has-rejected{fill:#d98a5f}
 .rej-marker{fill:var(--bad)}
 .legend-rej{color:var(--bad)}
+.rms-label{fill:var(--warn)}
 .note{font-size:12px;color:var(--muted);margin:6px 2px 0}
 .empty{color:var(--muted);font-style:italic}
 .camera-card{background:var(--card);border:1px solid var(--rule);border-radius:8px;padding:12px;margin-bottom:14px;border-top:4px solid var(--c)}
@@ -632,6 +657,7 @@ th,td{padding:5px 8px;border-bottom:1px solid var(--rule);text-align:right;white
 th:first-child,td:first-child{text-align:left}
 thead th{font-size:12px;color:var(--muted);font-weight:600;border-bottom:2px solid var(--ink);background:#efece4}
 td.msg{white-space:normal;text-align:left;min-width:240px}
+th.msg,td.txt{text-align:left}
 .pm{color:var(--muted);font-size:12px}
 .swatch{display:inline-block;width:10px;height:10px;border-radius:2px;margin-right:6px;vertical-align:baseline}
 .tag{font-size:11px;background:#e4efe9;color:var(--accent);border-radius:3px;padding:1px 5px}
