@@ -244,23 +244,24 @@ function rigView(solution: RigSolution, geo: RigGeometry, plane: Plane): string 
   for (const dr of drawn) {
     const [ax, ay] = [X(dr.apex), Y(dr.apex)];
     const text = `${dr.cam.name}${dr.cam.isReference ? ' (ref)' : ''}`;
-    const w = 7 * text.length;
-    const hgt = 13;
-    const spots: [number, number, 'start' | 'end'][] = [
-      [6, -6, 'start'], [6, 16, 'start'], [-6, -6, 'end'], [-6, 16, 'end'], [6, -20, 'start'], [6, 30, 'start'], [-6, -20, 'end'], [-6, 30, 'end'],
-    ];
+    // Bold 12 px text: about 7.5 px per character, plus the halo stroke.
+    const w = 7.5 * text.length + 4;
+    const hgt = 15;
+    const spots: [number, number, 'start' | 'end'][] = [];
+    for (const dy of [-6, 16, -22, 32, -38, 48]) spots.push([6, dy, 'start'], [-6, dy, 'end']);
     let choice = spots[0]!;
     for (const sp of spots) {
       const x0 = sp[2] === 'start' ? ax + sp[0] : ax + sp[0] - w;
-      const y0 = ay + sp[1] - 10;
-      const free = placed.every(([a, b, c, e]) => x0 + w < a || x0 > c || y0 + hgt < b || y0 > e);
+      const y0 = ay + sp[1] - 11;
+      const inside = x0 >= 2 && x0 + w <= W - 2 && y0 >= 2 && y0 + hgt <= H - 2;
+      const free = inside && placed.every(([a, b, c, e]) => x0 + w < a || x0 > c || y0 + hgt < b || y0 > e);
       if (free) {
         choice = sp;
         break;
       }
     }
     const x0 = choice[2] === 'start' ? ax + choice[0] : ax + choice[0] - w;
-    placed.push([x0, ay + choice[1] - 10, x0 + w, ay + choice[1] - 10 + hgt]);
+    placed.push([x0, ay + choice[1] - 11, x0 + w, ay + choice[1] - 11 + hgt]);
     parts.push(`<text class="cam-label" x="${n(ax + choice[0])}" y="${n(ay + choice[1])}" text-anchor="${choice[2]}" fill="${cameraColour(dr.cam.index)}">${esc(text)}</text>`);
   }
   // Scale bar (bottom left) and the plane's axes (bottom right).
@@ -610,10 +611,10 @@ h1{font-size:24px;margin:0 0 2px;letter-spacing:-.01em}
 h2{font-size:17px;margin:28px 0 10px;padding-left:10px;border-left:5px solid var(--accent)}
 h3{font-size:15px;margin:0 0 8px;display:flex;align-items:center;gap:8px}
 .sub{color:var(--muted);margin:0}
-.tiles{display:grid;grid-template-columns:repeat(auto-fit,minmax(140px,1fr));gap:10px;margin:14px 0}
+.tiles{display:grid;grid-template-columns:repeat(auto-fit,minmax(150px,1fr));gap:10px;margin:14px 0}
 .tile{background:var(--card);border:1px solid var(--rule);border-radius:6px;padding:8px 12px}
 .tile .k{font-size:12px;color:var(--muted);text-transform:uppercase;letter-spacing:.04em}
-.tile .v{font-size:20px;font-weight:600;font-variant-numeric:tabular-nums}
+.tile .v{font-size:19px;font-weight:600;font-variant-numeric:tabular-nums;white-space:nowrap}
 .tile.bad .v{color:var(--bad)}
 .caution{border:2px solid var(--warn);background:#fff6e6;border-radius:6px;padding:10px 14px;font-weight:500}
 .caution::before{content:"⚠ ";color:var(--warn)}
@@ -633,7 +634,7 @@ svg{display:block;width:100%;height:auto}
 .ring-2{stroke-dasharray:4 3}.ring-3{stroke-dasharray:1.5 3}
 .dots{stroke-width:2.2;stroke-linecap:round;stroke-opacity:.45;fill:none}
 .cov-dots{stroke:var(--ink);stroke-width:1.6;stroke-linecap:round;stroke-opacity:.35;fill:none}
-.rej-marks{stroke:var(--bad);stroke-width:1.2;fill:none}
+.rej-marks{stroke:var(--bad);stroke-width:1;stroke-opacity:.75;fill:none}
 .gap{fill:url(#hatch);stroke:#e3a722;stroke-opacity:.5}
 .frame{fill:none;stroke:var(--ink);stroke-width:1}
 .bar{fill-opacity:.8}
@@ -658,7 +659,7 @@ th:first-child,td:first-child{text-align:left}
 thead th{font-size:12px;color:var(--muted);font-weight:600;border-bottom:2px solid var(--ink);background:#efece4}
 td.msg{white-space:normal;text-align:left;min-width:240px}
 th.msg,td.txt{text-align:left}
-.pm{color:var(--muted);font-size:12px}
+.pm{color:var(--muted);font-size:11px;display:block}
 .swatch{display:inline-block;width:10px;height:10px;border-radius:2px;margin-right:6px;vertical-align:baseline}
 .tag{font-size:11px;background:#e4efe9;color:var(--accent);border-radius:3px;padding:1px 5px}
 .term-converged{color:var(--accent);font-weight:600}.term-no_convergence,.term-failure{color:var(--bad);font-weight:600}
