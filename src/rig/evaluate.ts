@@ -14,6 +14,9 @@
  * refinement per frame → residuals.
  *
  * The result has the shape of a RigSolution, so the same report renders it.
+ * In a fixed_targets scene the targets are still fitted per (frame, target)
+ * here (a looser model than the solve's fixed target layout), which is enough
+ * to show how the rig's cameras agree with each other.
  * Its camera covariances are the rig file's (what the rig claims); sigma0 is
  * recomputed from the residuals with n = 6 per fitted frame pose.
  */
@@ -26,7 +29,7 @@ import type { RigFile, Session } from '../io/types.js';
 import { Problem, solve, huberLoss, type IterationRecord, type LossFunction, type SolveSummary } from '../solver/index.js';
 import { MIN_VIEW_POINTS, groupByFrameTarget, initialiseFramePoses, initialiseViewPoses } from './initialise.js';
 import { OUTLIER_SIGMAS, type CameraResult, type RejectedView, type RigSolution } from './solve.js';
-import { poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
+import { poseFromBlock, poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
 import { groupViews, viewData, type View } from './views.js';
 
 export interface EvaluateOptions {
@@ -213,10 +216,10 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
   const used = new Int32Array(nc);
   let whitenedSq = 0;
   let m = 0;
-  let framePoses = 0;
+  let fittedPoses = 0;
   for (const [key, group] of groups) {
     const blocks = blocksOf(key, group);
-    if (blocks.length > 0) framePoses++;
+    if (blocks.length > 0) fittedPoses++;
     for (const b of blocks) {
       const r = new Float64Array(b.residual.numResiduals);
       b.residual.evaluate([frameValues.get(key)!], r, null, null);
@@ -234,7 +237,7 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
       }
     }
   }
-  const sigma0 = m > 6 * framePoses ? Math.sqrt(whitenedSq / (m - 6 * framePoses)) : NaN;
+  const sigma0 = m > 6 * fittedPoses ? Math.sqrt(whitenedSq / (m - 6 * fittedPoses)) : NaN;
   const detPerCam = new Int32Array(nc);
   for (let i = 0; i < d.count; i++) detPerCam[d.camera[i]!]!++;
   const cameras: CameraResult[] = names.map((name, c) => {
@@ -265,7 +268,16 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
     .map((v) => ({ frame: session.frames[v.frame]!, camera: names[v.camera]!, target: session.targets[v.target]!.name, reason: v.reason ?? v.status, status: v.status }));
   const warnings: string[] = [];
   for (const c of cameras) if (c.detectionsUsed === 0) warnings.push(`camera ${c.name} has no usable detections in this session: its extrinsic is not checked by this report`);
-  return {
+  // Fitted target poses, keyed like RigSolution.framePoses on main (`${frame}\u0000${target}`).
+  const framePoses = new Map<string, Pose>();
+  for (const [key, group] of groups) {
+    const v = group[0]!;
+    framePoses.set(`${session.frames[v.frame]}\u0000${session.targets[v.target]!.name}`, poseFromBlock(frameValues.get(key)!));
+  }
+  // Built without a type annotation so that fields RigSolution may gain stay assignable either way.
+  const result = {
+    framePoses,
+    targets: [] as { name: string; T_origin_target: Pose; covariance: Float64Array }[],
     session,
     reference,
     cameras,
@@ -283,5 +295,6 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
     detectionUsed,
     residualsPx,
   };
+  return result;
 }
 
