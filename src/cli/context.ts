@@ -17,6 +17,8 @@ export interface CliIo {
   stdout: (text: string) => void;
   /** Receives text for stderr (callers include the newline). */
   stderr: (text: string) => void;
+  /** True when stderr is an interactive terminal (progress indicators are shown only then). */
+  stderrIsTTY?: boolean;
 }
 
 export interface CliContext {
@@ -40,5 +42,8 @@ export const processIo: CliIo = {
   },
   stderr: (t) => {
     process.stderr.write(t);
+  },
+  get stderrIsTTY() {
+    return Boolean(process.stderr.isTTY);
   },
 };

@@ -53,10 +53,23 @@ export function rotationAngle(R1: ArrayLike<number>, R2: ArrayLike<number>): num
   return so3Angle(mat3Mul(new Float64Array(9), mat3Transpose(new Float64Array(9), R1), R2));
 }
 
-/** Step 1: PnP per view. `models[c]` and `params[c]` are the cameras' current intrinsics. */
-export function initialiseViewPoses(session: Session, views: View[], models: CameraModel[], params: Float64Array[]): PnpOutcome {
+/**
+ * Step 1: PnP per view. `models[c]` and `params[c]` are the cameras' current
+ * intrinsics. `onProgress(done, total)` is called about every 1 % of the views.
+ */
+export function initialiseViewPoses(
+  session: Session,
+  views: View[],
+  models: CameraModel[],
+  params: Float64Array[],
+  onProgress?: (done: number, total: number) => void,
+): PnpOutcome {
   const rmsList: number[] = [];
+  const progressStep = Math.max(1, Math.ceil(views.length / 100));
+  let visited = 0;
   for (const view of views) {
+    if (onProgress && visited % progressStep === 0) onProgress(visited, views.length);
+    visited++;
     if (view.status !== 'used') continue;
     const camName = session.cameras[view.camera]!.name;
     if (view.rows.length < MIN_VIEW_POINTS) {

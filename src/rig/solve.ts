@@ -187,7 +187,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     }
   });
   o.onProgress?.('pnp', 0, views.length);
-  initialiseViewPoses(session, views, models, intrinsics);
+  initialiseViewPoses(session, views, models, intrinsics, o.onProgress ? (done, total) => o.onProgress!('pnp', done, total) : undefined);
   o.onProgress?.('pnp', views.length, views.length);
 
   // 2-4. Camera extrinsics over the view graph, then frame (and target) poses
