@@ -170,7 +170,8 @@ export function solvePnP(
       failures.push({ reason: 'behind_camera', message: 'refined pose puts a point behind its bearing' });
       continue;
     }
-    if (!best || r.rmsPx < best.rmsPx) {
+    // Initialisers that reach the same minimum tie to rounding; keep the first (planar before EPnP).
+    if (!best || r.rmsPx < best.rmsPx * (1 - 1e-9)) {
       best = { T_cam_target: r.T_cam_target, rmsPx: r.rmsPx, residualsPx: r.residualsPx, method: init.method, iterations: r.iterations, converged: r.converged };
     }
   }
