@@ -108,7 +108,15 @@ describe('solvePnP, noisy', () => {
     expect(Math.hypot(r.T_cam_target.t[0]! - T.t[0]!, r.T_cam_target.t[1]! - T.t[1]!, r.T_cam_target.t[2]! - T.t[2]!)).toBeLessThan(0.01);
     expect(r.rmsPx).toBeGreaterThan(0.4);
     expect(r.rmsPx).toBeLessThan(0.9);
-    expect(r.residualsPx.length).toBe(uv.length);
+    expect(r.residualsPx.length).toBe(uv.length / 2);
+    expect(r.residualsUvPx.length).toBe(uv.length);
+    // Norms and components describe the same residuals, and the RMS is their root mean square.
+    let s = 0;
+    for (let i = 0; i < r.residualsPx.length; i++) {
+      expect(r.residualsPx[i]!).toBeCloseTo(Math.hypot(r.residualsUvPx[2 * i]!, r.residualsUvPx[2 * i + 1]!), 12);
+      s += r.residualsPx[i]! ** 2;
+    }
+    expect(Math.sqrt(s / r.residualsPx.length)).toBeCloseTo(r.rmsPx, 12);
   });
 });
 

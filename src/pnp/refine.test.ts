@@ -62,7 +62,8 @@ describe('refinePose', () => {
     expect(r.status).toBe('converged');
     for (const v of boxMinus(r.T_cam_target, T)) expect(Math.abs(v)).toBeLessThan(1e-9);
     expect(r.rmsPx).toBeLessThan(1e-8);
-    expect(r.residualsPx.length).toBe(40);
+    expect(r.residualsPx.length).toBe(20);
+    expect(r.residualsUvPx.length).toBe(40);
     expect(r.iterations).toBeGreaterThan(0);
   });
 
