@@ -1,31 +1,10 @@
 import { describe, expect, test } from 'vitest';
-import type { CameraModel } from '../camera/model.js';
+import { pinhole, type CameraModel } from '../camera/index.js';
 import { PnpError, solvePnP } from './index.js';
 import { RigCalError } from '../errors.js';
 import { se3Exp, act, boxMinus, type Pose } from '../geometry/se3.js';
 import { gaussian, rng } from '../testing/numeric.js';
 
-/** Test-local pinhole model (u = fx X/Z + cx, v = fy Y/Z + cy, valid for Z > 0). */
-const pinhole: CameraModel = {
-  name: 'pinhole',
-  paramNames: ['fx', 'fy', 'cx', 'cy'],
-  numParams: 4,
-  numDistortion: 0,
-  project(k, p, uv, J_uv_p) {
-    const z = p[2]!;
-    if (!(z > 1e-12)) return false;
-    uv[0] = (k[0]! * p[0]!) / z + k[2]!;
-    uv[1] = (k[1]! * p[1]!) / z + k[3]!;
-    if (J_uv_p) J_uv_p.set([k[0]! / z, 0, (-k[0]! * p[0]!) / (z * z), 0, k[1]! / z, (-k[1]! * p[1]!) / (z * z)]);
-    return true;
-  },
-  unproject(k, uv, ray) {
-    const x = (uv[0]! - k[2]!) / k[0]!, y = (uv[1]! - k[3]!) / k[1]!;
-    const l = Math.hypot(x, y, 1);
-    ray.set([x / l, y / l, 1 / l]);
-    return true;
-  },
-};
 const K = [800, 790, 320.5, 240.5];
 
 function project(T: Pose, p: Float64Array): Float64Array {
@@ -129,7 +108,15 @@ describe('solvePnP, noisy', () => {
     expect(Math.hypot(r.T_cam_target.t[0]! - T.t[0]!, r.T_cam_target.t[1]! - T.t[1]!, r.T_cam_target.t[2]! - T.t[2]!)).toBeLessThan(0.01);
     expect(r.rmsPx).toBeGreaterThan(0.4);
     expect(r.rmsPx).toBeLessThan(0.9);
-    expect(r.residualsPx.length).toBe(uv.length);
+    expect(r.residualsPx.length).toBe(uv.length / 2);
+    expect(r.residualsUvPx.length).toBe(uv.length);
+    // Norms and components describe the same residuals, and the RMS is their root mean square.
+    let s = 0;
+    for (let i = 0; i < r.residualsPx.length; i++) {
+      expect(r.residualsPx[i]!).toBeCloseTo(Math.hypot(r.residualsUvPx[2 * i]!, r.residualsUvPx[2 * i + 1]!), 12);
+      s += r.residualsPx[i]! ** 2;
+    }
+    expect(Math.sqrt(s / r.residualsPx.length)).toBeCloseTo(r.rmsPx, 12);
   });
 });
 

@@ -58,8 +58,10 @@ export interface PnpResult {
   T_cam_target: Pose;
   /** sqrt(mean over points of du² + dv²) after refinement, pixels. */
   rmsPx: number;
-  /** Per-point residuals (predicted − detected), uv interleaved, pixels. */
+  /** Per-point reprojection error norms √(du² + dv²), pixels (n, point i at index i). */
   residualsPx: Float64Array;
+  /** Per-point residuals (du, dv) = predicted − detected, uv interleaved, pixels (2n). */
+  residualsUvPx: Float64Array;
   /** Initialiser whose refined pose won. */
   method: PnpMethod;
   /** LM iterations of the winning refinement. */
@@ -186,8 +188,9 @@ export function solvePnP(
       failures.push({ reason: 'behind_camera', message: 'refined pose puts a point behind its bearing' });
       continue;
     }
-    if (!best || r.rmsPx < best.rmsPx) {
-      best = { T_cam_target: r.T_cam_target, rmsPx: r.rmsPx, residualsPx: r.residualsPx, method: init.method, iterations: r.iterations, converged: r.converged };
+    // Initialisers that reach the same minimum tie to rounding; keep the first (planar before EPnP).
+    if (!best || r.rmsPx < best.rmsPx * (1 - 1e-9)) {
+      best = { T_cam_target: r.T_cam_target, rmsPx: r.rmsPx, residualsPx: r.residualsPx, residualsUvPx: r.residualsUvPx, method: init.method, iterations: r.iterations, converged: r.converged };
     }
   }
   if (!best) {

@@ -41,8 +41,10 @@ export interface RefineResult {
   T_cam_target: Pose;
   /** sqrt(mean over points of du² + dv²), pixels. */
   rmsPx: number;
-  /** Per-point residuals (u_pred − u, v_pred − v), interleaved, pixels (2n). */
+  /** Per-point reprojection error norms √(du² + dv²), pixels (n; NaN for status 'invalid_point'). */
   residualsPx: Float64Array;
+  /** Per-point residuals (du, dv) = (u_pred − u, v_pred − v), interleaved, pixels (2n). */
+  residualsUvPx: Float64Array;
   /** Number of LM iterations performed (accepted + rejected steps). */
   iterations: number;
   converged: boolean;
@@ -123,7 +125,7 @@ export function refinePose(
   const rms = (r: Float64Array) => Math.sqrt(sumSq(r) / Math.max(n, 1));
   if (bad >= 0) {
     return {
-      T_cam_target: T, rmsPx: NaN, residualsPx: res, iterations: 0, converged: false, status: 'invalid_point',
+      T_cam_target: T, rmsPx: NaN, residualsPx: new Float64Array(n).fill(NaN), residualsUvPx: res, iterations: 0, converged: false, status: 'invalid_point',
       message: `point ${bad} cannot be projected at the initial pose`, invalidPoint: bad,
     };
   }
@@ -211,5 +213,7 @@ export function refinePose(
       }
     }
   }
-  return { T_cam_target: T, rmsPx: rms(res), residualsPx: res, iterations, converged: status === 'converged', status, message };
+  const norms = new Float64Array(n);
+  for (let i = 0; i < n; i++) norms[i] = Math.hypot(res[2 * i]!, res[2 * i + 1]!);
+  return { T_cam_target: T, rmsPx: rms(res), residualsPx: norms, residualsUvPx: res, iterations, converged: status === 'converged', status, message };
 }
