@@ -243,6 +243,8 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
   const cameras: CameraResult[] = names.map((name, c) => {
     const camViews = views.filter((v) => v.camera === c);
     return {
+      intrinsicsSolved: false,
+      intrinsicsCovariance: null,
       name,
       index: c,
       isReference: c === reference,

@@ -95,9 +95,8 @@ export function initialiseViewPoses(
     try {
       const { points, pixels } = viewData(session, view);
       let fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
-      // residualsPx holds (du, dv) per point.
-      const res = fit.residualsPx;
-      const norms = Array.from({ length: res.length / 2 }, (_, k) => Math.hypot(res[2 * k]!, res[2 * k + 1]!));
+      // residualsPx: per-point error norm, px.
+      const norms = Array.from(fit.residualsPx);
       const thr = Math.max(5 * median(norms), 2);
       const keep: number[] = [];
       for (let k = 0; k < norms.length; k++) if (norms[k]! <= thr) keep.push(view.rows[k]!);
