@@ -9,10 +9,15 @@
  * follow `then` forever). We wait through `then(callback)` and hand the
  * module back wrapped in `{ cv }`.
  *
+ * It is loaded with Node's own `require` (createRequire): a dynamic
+ * `import()` inside vitest sends the 10 MB file through the transform
+ * pipeline and stalled the worker for minutes; `require` loads in < 1 s.
+ *
  * Usage (in a test file):
  *   let cv: OpenCv;
  *   beforeAll(async () => { ({ cv } = await loadOpenCv()); }, OPENCV_LOAD_TIMEOUT_MS);
  */
+import { createRequire } from 'node:module';
 import type * as OpenCvNamespace from '@techstark/opencv-js';
 
 /**
@@ -50,7 +55,7 @@ let loading: Promise<{ cv: OpenCv }> | undefined;
 /** Resolves to `{ cv }` once the OpenCV runtime is ready (cached per process). */
 export function loadOpenCv(timeoutMs = OPENCV_LOAD_TIMEOUT_MS): Promise<{ cv: OpenCv }> {
   loading ??= (async () => {
-    const imported = (await import('@techstark/opencv-js')) as unknown as { default?: unknown };
+    const imported = createRequire(import.meta.url)('@techstark/opencv-js') as { default?: unknown };
     const mod = (imported.default ?? imported) as EmscriptenModule | Promise<unknown>;
     if (mod instanceof Promise) {
       // Some builds export a promise of the module; unwrap it without awaiting a thenable module.
