@@ -21,7 +21,7 @@ describe('camera model registry', () => {
     expect(section).toBeDefined();
     for (const line of section!.split('\n')) {
       const m = /^\|\s*`([a-z-]+)`\s*\|\s*([^|]+)\|/.exec(line);
-      if (!m) continue;
+      if (!m || m[1] === 'model') continue; // skip the header row
       const names = [...m[2]!.matchAll(/`([^`]+)`/g)].flatMap((g) => g[1]!.trim().split(/\s+/));
       rows.set(m[1]!, names);
     }
