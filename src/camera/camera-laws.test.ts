@@ -59,6 +59,7 @@ function samplePoints(f: CameraFixture): { what: string; p: Float64Array }[] {
     { what: 'on the optical axis', p: Float64Array.from([0, 0, 2.5]) },
     { what: 'θ = 1e-8', p: pointAt(1e-8, 0.7, 1.3) },
     { what: 'θ = 1e-5 (Taylor branch)', p: pointAt(1e-5, -2.1, 0.8) },
+    { what: 'θ just below the Taylor switch', p: pointAt(9e-5, -0.4, 0.6) },
     { what: 'θ just above the Taylor switch', p: pointAt(1.2e-4, 2.5, 3.0) },
   ];
   const ray = new Float64Array(3);
@@ -116,6 +117,20 @@ describe.each(CAMERA_FIXTURES.map((f) => [f.label, f] as const))('camera laws: %
     expectMatrixClose(J_uv_p, Jp, { rel: 1e-6 }, 'J_uv_p');
     const Ji = numericJacobianScaled((k: Float64Array) => projectOrThrow(f, p, k), f.params);
     expectMatrixClose(J_uv_intr, Ji, { rel: 1e-6 }, 'J_uv_intr');
+  });
+
+  test('J_uv_p · p = 0: the projection depends on the direction of p only', () => {
+    const uv = new Float64Array(2);
+    const J = new Float64Array(6);
+    for (const { what, p } of samplePoints(f)) {
+      expect(model.project(f.params, p, uv, J)).toBe(true);
+      const pn = Math.hypot(p[0]!, p[1]!, p[2]!);
+      const jn = Math.max(...Array.from(J, Math.abs));
+      for (let r = 0; r < 2; r++) {
+        const dot = J[3 * r]! * p[0]! + J[3 * r + 1]! * p[1]! + J[3 * r + 2]! * p[2]!;
+        expect(Math.abs(dot), `${what}, row ${r}`).toBeLessThan(1e-13 * jn * pn);
+      }
+    }
   });
 
   test('pixel → unproject → project returns the pixel (< 1e-9 px) with a unit ray', () => {

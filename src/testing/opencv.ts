@@ -9,11 +9,9 @@
  * follow `then` forever). We wait through `then(callback)` and hand the
  * module back wrapped in `{ cv }`.
  *
- * It is loaded with `require` (createRequire), not `await import()`: under
- * vitest's module runner the namespace object of the dynamic import carries
- * the module's `then` as a named export, so awaiting the import itself
- * follows that thenable forever (observed: the import never settles, and the
- * timeout below never starts).
+ * It is loaded with Node's own `require` (createRequire): a dynamic
+ * `import()` inside vitest sends the 10 MB file through the transform
+ * pipeline and stalled the worker for minutes; `require` loads in < 1 s.
  *
  * Usage (in a test file):
  *   let cv: OpenCv;
