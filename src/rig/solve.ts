@@ -17,7 +17,8 @@
  */
 import { cameraModel } from '../camera/registry.js';
 import type { CameraModel } from '../camera/model.js';
-import { adjoint, inverse, poseClone, se3LeftManifold, type Pose } from '../geometry/se3.js';
+import { adjoint, compose, inverse, poseClone, se3LeftManifold, type Pose } from '../geometry/se3.js';
+import { averagePosesRobust } from './average.js';
 import type { Session } from '../io/types.js';
 import {
   Problem,
@@ -35,6 +36,7 @@ import {
   MIN_VIEW_POINTS,
   buildViewGraph,
   frameTargetKey,
+  groupByFrameTarget,
   initialiseFramePoses,
   initialiseViewPoses,
   spanningTree,
@@ -60,6 +62,18 @@ export interface RigSolveOptions {
   onIteration?: (stage: string, record: IterationRecord) => void;
   /** Progress of long stages (PnP over many views). */
   onProgress?: (stage: string, done: number, total: number) => void;
+  /**
+   * Hold every camera at the given T_ref_cam (keyed by camera name; every
+   * session camera must be present): only frame poses are solved. In this
+   * mode the view graph is not needed (no connectivity requirement), views
+   * are not set aside for disagreeing with the other cameras of their frame
+   * (that disagreement is what a moved camera looks like), the outlier scale
+   * σ̂ is taken per camera (so a camera whose every residual grew keeps its
+   * detections while isolated gross detections are still rejected), camera
+   * covariances are zero (not computed) and sigma0 is computed from the
+   * residuals with n = 6 · (number of frame poses).
+   */
+  fixedExtrinsics?: Map<string, Pose>;
 }
 
 export const DEFAULT_RIG_SOLVE_OPTIONS: RigSolveOptions = Object.freeze({
@@ -152,11 +166,11 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   initialiseViewPoses(session, views, models, intrinsics);
   o.onProgress?.('pnp', views.length, views.length);
 
-  // 2-3. View graph and spanning tree.
-  const edges = buildViewGraph(views, nc, nt);
-  const tree = spanningTree(edges, nc, reference, { R: Float64Array.from([1, 0, 0, 0, 1, 0, 0, 0, 1]), t: new Float64Array(3) });
-  checkConnected(session, views, tree.groups, reference);
-  for (let c = 0; c < nc; c++) {
+  // 2-3. View graph and spanning tree (or the given extrinsics).
+  const fixed = o.fixedExtrinsics;
+  const tree = fixed ? fixedTree(names, fixed) : spanningTree(buildViewGraph(views, nc, nt), nc, reference, { R: Float64Array.from([1, 0, 0, 0, 1, 0, 0, 0, 1]), t: new Float64Array(3) });
+  if (!fixed) checkConnected(session, views, tree.groups, reference);
+  for (let c = 0; c < nc && !fixed; c++) {
     if (c !== reference && tree.support[c] === 1) {
       warnings.push(
         `camera ${names[c]} is linked to the rest of the rig by a single frame (through ${names[tree.parent[c]!]}): its extrinsic rests on one view; capture more frames in which ${names[c]} and a neighbouring camera see the target at once`,
@@ -166,7 +180,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   const T_ref_cam = tree.T_ref_cam.map((T) => T!);
 
   // 4. Frame poses and whole-view consistency.
-  const frameInit = initialiseFramePoses(views, nt, T_ref_cam, names);
+  const frameInit = fixed ? initialiseFramePosesAllViews(views, nt, T_ref_cam) : initialiseFramePoses(views, nt, T_ref_cam, names);
   const framePoses = frameInit.poses;
 
   // Parameter storage shared by every problem we build (the engine updates it in place).
@@ -185,7 +199,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   const build = (loss: LossFunction | undefined): BuiltProblem => {
     const problem = new Problem();
     const camIds = camValues.map((v, c) =>
-      problem.addParameterBlock({ values: v, manifold: se3LeftManifold, constant: c === reference, label: `camera ${names[c]}` }),
+      problem.addParameterBlock({ values: v, manifold: se3LeftManifold, constant: c === reference || fixed !== undefined, label: `camera ${names[c]}` }),
     );
     const frameIds = new Map<number, number>();
     const blocks: ViewResidual[] = [];
@@ -268,10 +282,20 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     for (const n of norms) for (const x of n.e) all.push(x * x);
     return Math.sqrt(median(all) / (2 * Math.LN2));
   };
+  /** Fixed mode: σ̂ per camera (see RigSolveOptions.fixedExtrinsics); otherwise one σ̂ for all. */
+  const rejectionLimits = (built: BuiltProblem, norms: { e: Float64Array }[]): Float64Array => {
+    const limits = new Float64Array(nc).fill(o.outlierSigmas * robustSigma(norms));
+    if (!fixed) return limits;
+    for (let c = 0; c < nc; c++) {
+      const own = norms.filter((_, b) => built.blockViews[b]!.camera === c);
+      if (own.length) limits[c] = o.outlierSigmas * robustSigma(own);
+    }
+    return limits;
+  };
 
   // 5. Robust solve, then reject and re-solve with plain least squares.
   let built = build(undefined);
-  let sigmaHat = robustSigma(errorNorms(built));
+  const sigmaHat = robustSigma(errorNorms(built));
   if (o.loss !== 'none') {
     const a = o.lossScaleSigmas * Math.max(sigmaHat, 1e-6);
     built = build(o.loss === 'huber' ? huberLoss(a) : cauchyLoss(a));
@@ -280,12 +304,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   let summary: SolveSummary | undefined;
   for (let round = 0; round <= o.maxRejectionRounds; round++) {
     const norms = errorNorms(built);
-    sigmaHat = robustSigma(norms);
-    const limit = o.outlierSigmas * sigmaHat;
+    const limits = rejectionLimits(built, norms);
     let newlyRejected = 0;
     for (let b = 0; b < norms.length; b++) {
       const { rows, e } = norms[b]!;
       const view = built.blockViews[b]!;
+      const limit = limits[view.camera]!;
       let bad = 0;
       for (let k = 0; k < e.length; k++) if (!(e[k]! <= limit)) bad++;
       const remaining = view.rows.length - countRejected(view.rows, rejectedRow) - bad;
@@ -303,22 +327,22 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       }
     }
     if (summary && newlyRejected === 0) break;
-    checkConnected(session, views, connectedGroups(views, nc, nt, reference), reference);
+    if (!fixed) checkConnected(session, views, connectedGroups(views, nc, nt, reference), reference);
     built = build(undefined);
     summary = runStage(round === 0 ? 'least squares' : `least squares (round ${round + 1})`, built);
   }
   const final = summary!;
 
-  // 6. Covariance of the camera extrinsics, frame poses marginalised.
-  const covResult = computeCovariance(built.problem);
-  if (!covResult.ok) {
+  // 6. Covariance of the camera extrinsics, frame poses marginalised (not needed when all are held fixed).
+  const covResult = fixed ? undefined : computeCovariance(built.problem);
+  if (covResult && !covResult.ok) {
     throw new RigSolveError('rig.poorly_constrained', `the rig is poorly constrained: ${covResult.message}`);
   }
-  const cov = covResult.covariance;
-  const sigma0 = Math.sqrt(cov.sigma0Squared);
-  const s2 = cov.sigma0Squared;
+  const cov = covResult?.ok ? covResult.covariance : undefined;
+  let sigma0 = cov ? Math.sqrt(cov.sigma0Squared) : NaN;
+  const s2 = cov ? cov.sigma0Squared : 0;
   const joint = new Float64Array(36 * nc * nc);
-  for (let a = 0; a < nc; a++) {
+  for (let a = 0; a < nc && cov; a++) {
     for (let b = 0; b < nc; b++) {
       if (a === reference || b === reference) continue;
       const blk = cov.cross(a, b); // camera block ids equal camera indices (added first)
@@ -370,6 +394,18 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       viewsRejected: camViews.filter((v) => v.status !== 'used').length,
     };
   });
+  if (fixed) {
+    // sigma0² = Σ whitened r² / (m − n), n = 6 per frame pose (the only free blocks).
+    let whitened = 0;
+    let m = 0;
+    for (let i = 0; i < d.count; i++) {
+      if (!detectionUsed[i]) continue;
+      whitened += (residualsPx[2 * i]! ** 2 + residualsPx[2 * i + 1]! ** 2) * invSigma[i]! ** 2;
+      m += 2;
+    }
+    const n = 6 * (built.problem.numParameterBlocks - nc);
+    sigma0 = m > n ? Math.sqrt(whitened / (m - n)) : NaN;
+  }
   let totalSq = 0;
   let totalUsed = 0;
   for (let c = 0; c < nc; c++) {
@@ -404,6 +440,33 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     detectionUsed,
     residualsPx,
   };
+}
+
+/** The given extrinsics in the shape of a spanning tree (no parents: nothing is chained). */
+function fixedTree(names: string[], fixed: Map<string, Pose>): { T_ref_cam: Pose[]; parent: number[]; support: number[]; groups: number[][] } {
+  const missing = names.filter((n) => !fixed.has(n));
+  if (missing.length) {
+    throw new RigSolveError('rig.fixed_extrinsics_missing', `no fixed extrinsic given for camera${missing.length > 1 ? 's' : ''} ${missing.join(', ')}`);
+  }
+  return {
+    T_ref_cam: names.map((n) => poseClone(fixed.get(n)!)),
+    parent: names.map(() => -1),
+    support: names.map(() => 0),
+    groups: [names.map((_, i) => i)],
+  };
+}
+
+/**
+ * Fixed-extrinsics initialisation: T_ref_target per (frame, target) as the
+ * robust average of every view's estimate; no view is set aside.
+ */
+function initialiseFramePosesAllViews(views: View[], nt: number, T_ref_cam: Pose[]): { poses: Map<number, Pose> } {
+  const poses = new Map<number, Pose>();
+  for (const [key, group] of groupByFrameTarget(views, nt)) {
+    const candidates = group.map((v) => compose(T_ref_cam[v.camera]!, v.T_cam_target!));
+    poses.set(key, candidates.length === 1 ? candidates[0]! : averagePosesRobust(candidates).pose);
+  }
+  return { poses };
 }
 
 function countRejected(rows: Int32Array, rejected: Uint8Array): number {
