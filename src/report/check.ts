@@ -96,7 +96,8 @@ export function checkText(chk: RigCheck, sessionPath: string, rigPath: string): 
   const out: string[] = [];
   out.push(`check of ${rigPath} against new data ${sessionPath} (${chk.freshSolution.framesUsed} frames)`);
   out.push('');
-  out.push('a. reprojection RMS per camera (px): reference = its own calibration data; held = new data with the reference extrinsics held fixed; fresh = new data after a fresh solve');
+  out.push('a. reprojection RMS per camera (px): reference = its own calibration data; held = new data with the reference extrinsics held fixed; fresh = new data after a fresh solve;');
+  out.push('   cameras that share frames with a moved camera show a raised held RMS too: table b says which camera moved');
   const head = ['camera'.padEnd(16), 'reference'.padStart(10), 'held'.padStart(8), 'fresh'.padStart(8), 'used'.padStart(7)].join(' ');
   out.push(head, '-'.repeat(head.length));
   for (const r of chk.rms) {
