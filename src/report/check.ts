@@ -14,6 +14,7 @@ function f(x: number | null | undefined, digits: number): string {
 
 function p(x: number | null): string {
   if (x === null) return 'n/a';
+  if (x < 1e-15) return '<1e-15';
   return x < 1e-4 ? x.toExponential(1) : x.toFixed(4);
 }
 
