@@ -14,11 +14,23 @@ import { registerValidate } from './validate.js';
 import { registerSolve } from './solve.js';
 import { registerSimulate } from './simulate.js';
 import { registerReport } from './report.js';
+import { registerCheck } from './check.js';
+import { registerCompare } from './compare.js';
+import { registerExport } from './export.js';
 
 export const VERSION = '0.1.0';
 
 /** Every command, one registration function each (src/cli/<command>.ts). */
-export const COMMANDS: RegisterCommand[] = [registerSolve, registerReport, registerSimulate, registerValidate, registerSchema];
+export const COMMANDS: RegisterCommand[] = [
+  registerSolve,
+  registerCheck,
+  registerCompare,
+  registerExport,
+  registerReport,
+  registerSimulate,
+  registerValidate,
+  registerSchema,
+];
 
 /** Builds a fresh program bound to `ctx` (a new one per run: commander keeps state). */
 export function createProgram(ctx: CliContext): Command {

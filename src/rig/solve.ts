@@ -18,6 +18,7 @@
 import { cameraModel } from '../camera/registry.js';
 import type { CameraModel } from '../camera/model.js';
 import { adjoint, compose, inverse, poseClone, poseIdentity, se3LeftManifold, type Pose } from '../geometry/se3.js';
+import { averagePosesRobust } from './average.js';
 import { initialiseFixedScene } from './initialise-fixed.js';
 import { PriorResidual } from './prior.js';
 import { designPoses, mergeGroupsCoveredByPrior } from './design.js';
@@ -40,6 +41,7 @@ import {
   buildViewGraph,
   consensusPoses,
   frameTargetKey,
+  groupByFrameTarget,
   initialiseFramePoses,
   initialiseViewPoses,
   spanningTree,
@@ -72,6 +74,19 @@ export interface RigSolveOptions {
   onIteration?: (stage: string, record: IterationRecord) => void;
   /** Progress of long stages (PnP over many views). */
   onProgress?: (stage: string, done: number, total: number) => void;
+  /**
+   * Hold every camera at the given T_ref_cam (keyed by camera name; every
+   * session camera must be present): only frame poses (and, for
+   * fixed_targets, target poses) are solved. In this mode the view graph is
+   * not needed (no connectivity requirement), moving_targets views are not
+   * set aside for disagreeing with the other cameras of their frame (that
+   * disagreement is what a moved camera looks like), the outlier scale σ̂ is
+   * taken per camera (so a camera whose every residual grew keeps its
+   * detections while isolated gross detections are still rejected), design
+   * priors are ignored, camera covariances are zero (not computed) and
+   * sigma0 is computed from the residuals with n = the free tangent coordinates.
+   */
+  fixedExtrinsics?: Map<string, Pose>;
 }
 
 export const DEFAULT_RIG_SOLVE_OPTIONS: RigSolveOptions = Object.freeze({
@@ -199,7 +214,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   let initParent: number[];
   const targetValues: Float64Array[] = [];
   const frameValues = new Map<number, Float64Array>();
-  if (!fixedScene) {
+  const fixed = o.fixedExtrinsics;
+  if (!fixedScene && fixed) {
+    T_ref_cam = fixedCameraPoses(names, fixed);
+    initParent = names.map(() => -1);
+    for (const [k, T] of initialiseFramePosesAllViews(views, nt, T_ref_cam)) frameValues.set(k, poseToBlock(T));
+  } else if (!fixedScene) {
     const edges = buildViewGraph(views, nc, nt);
     const tree = spanningTree(edges, nc, reference, poseIdentity());
     // Cameras the view graph cannot reach are placed at their design pose when the prior has one.
@@ -226,8 +246,8 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   } else {
     const init = initialiseFixedScene(views, nc, nt, reference);
     checkFixedScenePlaced(session, views, init.T_ref_cam, init.T_origin_target);
-    T_ref_cam = init.T_ref_cam.map((T) => T!);
-    initParent = init.cameraParent;
+    T_ref_cam = fixed ? fixedCameraPoses(names, fixed) : init.T_ref_cam.map((T) => T!);
+    initParent = fixed ? names.map(() => -1) : init.cameraParent;
     init.T_origin_target.forEach((T) => targetValues.push(poseToBlock(T!)));
     const byFrame = new Map<number, View[]>();
     for (const v of views) {
@@ -260,7 +280,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   const build = (loss: LossFunction | undefined): BuiltProblem => {
     const problem = new Problem();
     const camIds = camValues.map((v, c) =>
-      problem.addParameterBlock({ values: v, manifold: se3LeftManifold, constant: c === reference, label: `camera ${names[c]}` }),
+      problem.addParameterBlock({ values: v, manifold: se3LeftManifold, constant: c === reference || fixed !== undefined, label: `camera ${names[c]}` }),
     );
     const intrIds = intrinsics.map((v, c) =>
       solvesIntrinsics[c]
@@ -272,7 +292,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
         : -1,
     );
     design.forEach((dsg, c) => {
-      if (!dsg || c === reference) return;
+      if (!dsg || c === reference || fixed) return;
       const prior = new PriorResidual(camIds[c]!, dsg.T, dsg.sigmaRotationRad, dsg.sigmaPositionM);
       problem.addResidualBlock(prior);
       priorBlocks[c] = prior;
@@ -375,10 +395,20 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     for (const n of norms) for (const x of n.e) all.push(x * x);
     return Math.sqrt(median(all) / (2 * Math.LN2));
   };
+  /** Fixed extrinsics: σ̂ per camera (see RigSolveOptions.fixedExtrinsics); otherwise one σ̂ for all. */
+  const rejectionLimits = (built: BuiltProblem, norms: { e: Float64Array }[]): Float64Array => {
+    const limits = new Float64Array(nc).fill(o.outlierSigmas * robustSigma(norms));
+    if (!fixed) return limits;
+    for (let c = 0; c < nc; c++) {
+      const own = norms.filter((_, b) => built.blockViews[b]!.camera === c);
+      if (own.length) limits[c] = o.outlierSigmas * robustSigma(own);
+    }
+    return limits;
+  };
 
   // 5. Robust solve, then reject and re-solve with plain least squares.
   let built = build(undefined);
-  let sigmaHat = robustSigma(errorNorms(built));
+  const sigmaHat = robustSigma(errorNorms(built));
   if (o.loss !== 'none') {
     const a = o.lossScaleSigmas * Math.max(sigmaHat, 1e-6);
     built = build(o.loss === 'huber' ? huberLoss(a) : cauchyLoss(a));
@@ -387,12 +417,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   let summary: SolveSummary | undefined;
   for (let round = 0; round <= o.maxRejectionRounds; round++) {
     const norms = errorNorms(built);
-    sigmaHat = robustSigma(norms);
-    const limit = o.outlierSigmas * sigmaHat;
+    const limits = rejectionLimits(built, norms);
     let newlyRejected = 0;
     for (let b = 0; b < norms.length; b++) {
       const { rows, e } = norms[b]!;
       const view = built.blockViews[b]!;
+      const limit = limits[view.camera]!;
       let bad = 0;
       for (let k = 0; k < e.length; k++) if (!(e[k]! <= limit)) bad++;
       const remaining = view.rows.length - countRejected(view.rows, rejectedRow) - bad;
@@ -410,22 +440,22 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       }
     }
     if (summary && newlyRejected === 0) break;
-    checkConnected(session, views, mergeGroupsCoveredByPrior(connectedGroups(views, nc, poseKey, reference), reference, design), reference);
+    if (!fixed) checkConnected(session, views, mergeGroupsCoveredByPrior(connectedGroups(views, nc, poseKey, reference), reference, design), reference);
     built = build(undefined);
     summary = runStage(round === 0 ? 'least squares' : `least squares (round ${round + 1})`, built);
   }
   const final = summary!;
 
-  // 6. Covariance of the camera extrinsics, frame poses marginalised.
-  const covResult = computeCovariance(built.problem);
-  if (!covResult.ok) {
+  // 6. Covariance of the camera extrinsics, frame poses marginalised (not needed when all are held fixed).
+  const covResult = fixed ? undefined : computeCovariance(built.problem);
+  if (covResult && !covResult.ok) {
     throw new RigSolveError('rig.poorly_constrained', `the rig is poorly constrained: ${covResult.message}`);
   }
-  const cov = covResult.covariance;
-  const sigma0 = Math.sqrt(cov.sigma0Squared);
-  const s2 = cov.sigma0Squared;
+  const cov = covResult?.ok ? covResult.covariance : undefined;
+  let sigma0 = cov ? Math.sqrt(cov.sigma0Squared) : NaN;
+  const s2 = cov ? cov.sigma0Squared : 0;
   const joint = new Float64Array(36 * nc * nc);
-  for (let a = 0; a < nc; a++) {
+  for (let a = 0; a < nc && cov; a++) {
     for (let b = 0; b < nc; b++) {
       if (a === reference || b === reference) continue;
       const blk = cov.cross(a, b); // camera block ids equal camera indices (added first)
@@ -463,7 +493,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     for (let i = 0; i < 6; i++) for (let j = 0; j < 6; j++) covariance[i * 6 + j] = joint[(6 * c + i) * 6 * nc + 6 * c + j]!;
     const camViews = views.filter((v) => v.camera === c);
     const intrId = built.intrIds[c]!;
-    const intrinsicsCovariance = intrId >= 0 ? cov.block(intrId).map((x) => x * s2) : null;
+    const intrinsicsCovariance = intrId >= 0 && cov ? cov.block(intrId).map((x) => x * s2) : null;
     const prior = priorBlocks[c];
     return {
       ...(prior ? { sigmasFromDesign: prior.sigmasFromDesign(camValues[c]!) } : {}),
@@ -484,6 +514,22 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     };
   });
   for (const cam of cameras) warnings.push(...intrinsicsWarnings(cam, session.cameras[cam.index]!.resolution));
+  if (fixed) {
+    // sigma0² = Σ whitened r² / (m − n), n = free tangent coordinates (frame, target and intrinsic blocks).
+    let whitened = 0;
+    let m = 0;
+    for (let i = 0; i < d.count; i++) {
+      if (!detectionUsed[i]) continue;
+      whitened += (residualsPx[2 * i]! ** 2 + residualsPx[2 * i + 1]! ** 2) * invSigma[i]! ** 2;
+      m += 2;
+    }
+    let n = 0;
+    for (let id = 0; id < built.problem.numParameterBlocks; id++) {
+      const pb = built.problem.parameterBlock(id);
+      if (!pb.constant) n += pb.tangentSize - pb.fixedTangentIndices.length;
+    }
+    sigma0 = m > n ? Math.sqrt(whitened / (m - n)) : NaN;
+  }
   let totalSq = 0;
   let totalUsed = 0;
   for (let c = 0; c < nc; c++) {
@@ -519,7 +565,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     targets: targetValues.map((v, t) => ({
       name: session.targets[t]!.name,
       T_origin_target: poseFromBlock(v),
-      covariance: t === 0 ? new Float64Array(36) : cov.block(built.targetIds[t]!).map((x) => x * s2),
+      covariance: t === 0 || !cov ? new Float64Array(36) : cov.block(built.targetIds[t]!).map((x) => x * s2),
     })),
     framePoses: new Map(
       [...frameValues].filter(([key]) => usedKeys.has(key)).map(([key, v]) => [
@@ -530,6 +576,29 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     detectionUsed,
     residualsPx,
   };
+}
+
+/** The given extrinsics in camera order; throws naming any camera without one. */
+function fixedCameraPoses(names: string[], fixed: Map<string, Pose>): Pose[] {
+  const missing = names.filter((n) => !fixed.has(n));
+  if (missing.length) {
+    throw new RigSolveError('rig.fixed_extrinsics_missing', `no fixed extrinsic given for camera${missing.length > 1 ? 's' : ''} ${missing.join(', ')}`);
+  }
+  return names.map((n) => poseClone(fixed.get(n)!));
+}
+
+/**
+ * Fixed-extrinsics initialisation (moving targets): T_ref_target per
+ * (frame, target) as the robust average of every view's estimate; no view is
+ * set aside.
+ */
+function initialiseFramePosesAllViews(views: View[], nt: number, T_ref_cam: Pose[]): Map<number, Pose> {
+  const poses = new Map<number, Pose>();
+  for (const [key, group] of groupByFrameTarget(views, nt)) {
+    const candidates = group.map((v) => compose(T_ref_cam[v.camera]!, v.T_cam_target!));
+    poses.set(key, candidates.length === 1 ? candidates[0]! : averagePosesRobust(candidates).pose);
+  }
+  return poses;
 }
 
 function countRejected(rows: Int32Array, rejected: Uint8Array): number {
