@@ -1,11 +1,12 @@
-import { CholeskyDecomposition, determinant, inverse as mlInverse, Matrix } from 'ml-matrix';
-import { describe, expect, it } from 'vitest';
+import { CholeskyDecomposition, determinant, inverse as mlInverse, Matrix, SingularValueDecomposition } from 'ml-matrix';
+import { describe, expect, it, test } from 'vitest';
 import { expectMatrixClose, gaussian, rng } from '../testing/numeric.js';
 import {
   choleskyInPlace,
   choleskySolveInPlace,
   cross,
   dot3,
+  householderR,
   mat3Det,
   mat3Mul,
   mat3MulVec,
@@ -105,5 +106,22 @@ describe('Cholesky and SPD inverse vs ml-matrix', () => {
     expect(spdInverse(A, 3)).toBeNull();
     // Rank-deficient PSD matrix: the zero pivot is caught (column 1).
     expect(choleskyInPlace(Float64Array.from([1, 1, 1, 1]), 2)).toBe(1);
+  });
+});
+
+describe('householderR', () => {
+  test('RᵀR equals AᵀA and R has the singular values of A (ml-matrix reference)', () => {
+    const m = 40;
+    const n = 9;
+    const A = Float64Array.from({ length: m * n }, () => u() * 2 - 1);
+    const M = new Matrix(Array.from({ length: m }, (_, i) => Array.from(A.subarray(i * n, i * n + n))));
+    const R = householderR(Float64Array.from(A), m, n);
+    const RtR = new Float64Array(n * n);
+    matTMul(RtR, R, R, n, n, n);
+    const AtA = M.transpose().mmul(M).to1DArray();
+    expectMatrixClose(RtR, AtA, { rel: 1e-13 }, 'RᵀR');
+    const sA = new SingularValueDecomposition(M).diagonal;
+    const sR = new SingularValueDecomposition(new Matrix(Array.from({ length: n }, (_, i) => Array.from(R.subarray(i * n, i * n + n))))).diagonal;
+    expectMatrixClose(sR, sA, { rel: 1e-12 }, 'singular values');
   });
 });

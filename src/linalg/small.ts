@@ -215,3 +215,39 @@ export function spdInverse(A: ArrayLike<number>, n: number): Float64Array | null
   }
   return inv;
 }
+
+/**
+ * Triangular factor R (n x n, row-major, upper) of the QR factorisation of a
+ * tall m x n matrix A (m ≥ n, row-major; A is overwritten), by Householder
+ * reflections. RᵀR = AᵀA and R has the singular values and right singular
+ * vectors of A, so an SVD of the small R replaces one of the tall A without
+ * squaring the condition number (as forming AᵀA would).
+ */
+export function householderR(A: Float64Array, m: number, n: number): Float64Array {
+  for (let k = 0; k < n; k++) {
+    let norm = 0;
+    for (let i = k; i < m; i++) norm += A[i * n + k]! * A[i * n + k]!;
+    norm = Math.sqrt(norm);
+    if (norm === 0) continue;
+    const alpha = A[k * n + k]! > 0 ? -norm : norm;
+    // v = x − alpha e_k, stored in column k below the diagonal (v_k in place of A[k][k]).
+    const vk = A[k * n + k]! - alpha;
+    A[k * n + k] = vk;
+    let vnorm2 = vk * vk;
+    for (let i = k + 1; i < m; i++) vnorm2 += A[i * n + k]! * A[i * n + k]!;
+    if (vnorm2 === 0) {
+      A[k * n + k] = alpha;
+      continue;
+    }
+    for (let j = k + 1; j < n; j++) {
+      let dot = 0;
+      for (let i = k; i < m; i++) dot += A[i * n + k]! * A[i * n + j]!;
+      const f = (2 * dot) / vnorm2;
+      for (let i = k; i < m; i++) A[i * n + j] = A[i * n + j]! - f * A[i * n + k]!;
+    }
+    A[k * n + k] = alpha;
+  }
+  const R = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) for (let j = i; j < n; j++) R[i * n + j] = A[i * n + j]!;
+  return R;
+}

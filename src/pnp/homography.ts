@@ -16,6 +16,7 @@
  * null space of A of dimension > 1.
  */
 import { Matrix, SingularValueDecomposition } from 'ml-matrix';
+import { householderR } from '../linalg/small.js';
 
 export type HomographyFailure = 'too_few_points' | 'size_mismatch' | 'non_finite' | 'collinear' | 'degenerate';
 
@@ -96,16 +97,20 @@ export function estimateHomography(src: ArrayLike<number>, dst: ArrayLike<number
   }
   // With 4 pairs A is 8x9; a zero row makes it square so that the SVD returns all of V.
   const rows = Math.max(2 * n, 9);
-  const A = Matrix.zeros(rows, 9);
+  const a = new Float64Array(rows * 9);
   for (let i = 0; i < n; i++) {
     const x = ns.pts[2 * i]!, y = ns.pts[2 * i + 1]!;
     const xp = nd.pts[2 * i]!, yp = nd.pts[2 * i + 1]!;
-    const r0 = 2 * i, r1 = 2 * i + 1;
-    A.set(r0, 3, -x); A.set(r0, 4, -y); A.set(r0, 5, -1);
-    A.set(r0, 6, yp * x); A.set(r0, 7, yp * y); A.set(r0, 8, yp);
-    A.set(r1, 0, x); A.set(r1, 1, y); A.set(r1, 2, 1);
-    A.set(r1, 6, -xp * x); A.set(r1, 7, -xp * y); A.set(r1, 8, -xp);
+    const r0 = 18 * i, r1 = r0 + 9;
+    a[r0 + 3] = -x; a[r0 + 4] = -y; a[r0 + 5] = -1;
+    a[r0 + 6] = yp * x; a[r0 + 7] = yp * y; a[r0 + 8] = yp;
+    a[r1] = x; a[r1 + 1] = y; a[r1 + 2] = 1;
+    a[r1 + 6] = -xp * x; a[r1 + 7] = -xp * y; a[r1 + 8] = -xp;
   }
+  // A's singular values and right singular vectors are those of its 9x9 triangular factor.
+  const R = householderR(a, rows, 9);
+  const A = new Matrix(9, 9);
+  for (let i = 0; i < 9; i++) for (let j = 0; j < 9; j++) A.set(i, j, R[i * 9 + j]!);
   const svd = new SingularValueDecomposition(A, { autoTranspose: false });
   const sv = svd.diagonal;
   // ml-matrix returns singular values in descending order; find the smallest explicitly.

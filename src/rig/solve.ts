@@ -277,6 +277,8 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   }
   const rejectedRow = new Uint8Array(d.count);
 
+  const viewCache = new Map<View, { rows: Int32Array; points: Float64Array; pixels: Float64Array; w: Float64Array; rejected: number; validated: boolean }>();
+  const initialSquaredErrors: number[] = [];
   const build = (loss: LossFunction | undefined): BuiltProblem => {
     const problem = new Problem();
     const camIds = camValues.map((v, c) =>
@@ -310,10 +312,19 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       const key = poseKey(view);
       const fv = frameValues.get(key);
       if (!fv) continue;
-      const rows = Int32Array.from(Array.from(view.rows).filter((r) => !rejectedRow[r]));
-      const { points, pixels } = viewData(session, view, rows);
-      const w = new Float64Array(rows.length);
-      for (let k = 0; k < rows.length; k++) w[k] = invSigma[rows[k]!]!;
+      // Per-view data is rebuilt only when detections of the view were rejected since the last build.
+      let data = viewCache.get(view);
+      let rejectedNow = 0;
+      for (const r of view.rows) rejectedNow += rejectedRow[r]!;
+      if (!data || data.rejected !== rejectedNow) {
+        const rows = Int32Array.from(Array.from(view.rows).filter((r) => !rejectedRow[r]));
+        const { points, pixels } = viewData(session, view, rows);
+        const w = new Float64Array(rows.length);
+        for (let k = 0; k < rows.length; k++) w[k] = invSigma[rows[k]!]!;
+        data = { rows, points, pixels, w, rejected: rejectedNow, validated: data?.validated ?? false };
+        viewCache.set(view, data);
+      }
+      const { rows, points, pixels, w } = data;
       // moving targets: T_cam_target = T_ref_cam⁻¹ · T_ref_target(frame, target)
       // fixed targets:  T_cam_target = T_ref_cam⁻¹ · T_origin_ref(frame)⁻¹ · T_origin_target
       const chain: ChainFactor[] = fixedScene
@@ -343,11 +354,16 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
         invSigma: w,
         ...(loss ? { loss } : {}),
       });
-      if (!block.evaluate([...poseValues, intrinsics[view.camera]!], new Float64Array(block.numResiduals), null, null)) {
-        // A point falls outside the camera model's valid region at the initial pose.
-        view.status = 'unprojectable';
-        view.reason = 'some of its points do not project into the camera at the initial pose (view at the edge of the valid field of view?)';
-        continue;
+      if (!data.validated) {
+        const r = new Float64Array(block.numResiduals);
+        if (!block.evaluate([...poseValues, intrinsics[view.camera]!], r, null, null)) {
+          // A point falls outside the camera model's valid region at the initial pose.
+          view.status = 'unprojectable';
+          view.reason = 'some of its points do not project into the camera at the initial pose (view at the edge of the valid field of view?)';
+          continue;
+        }
+        data.validated = true;
+        for (let k = 0; k < r.length; k += 2) initialSquaredErrors.push(r[k]! * r[k]! + r[k + 1]! * r[k + 1]!);
       }
       let fid = frameIds.get(key);
       if (fid === undefined) {
@@ -408,7 +424,9 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
 
   // 5. Robust solve, then reject and re-solve with plain least squares.
   let built = build(undefined);
-  const sigmaHat = robustSigma(errorNorms(built));
+  // Robust scale of the initial whitened errors (collected while building), for the loss scale.
+  const sigmaHat = Math.sqrt(median(initialSquaredErrors) / (2 * Math.LN2));
+  initialSquaredErrors.length = 0;
   if (o.loss !== 'none') {
     const a = o.lossScaleSigmas * Math.max(sigmaHat, 1e-6);
     built = build(o.loss === 'huber' ? huberLoss(a) : cauchyLoss(a));
