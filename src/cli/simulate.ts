@@ -47,9 +47,20 @@ export function registerSimulate(program: Command, ctx: CliContext): void {
     .option('--outliers <fraction>', 'fraction of detections made gross outliers', parseNumber('--outliers', { min: 0, max: 0.5 }))
     .option('--flipped <n>', 'number of checkerboard views with point ids rotated by 180°', parseNumber('--flipped', { integer: true, min: 0 }))
     .option('--distance <min,max>', 'board distance range from the chosen camera, metres', parseRange)
+    .option(
+      '--solve-intrinsics',
+      'write a session that asks for every camera\'s intrinsics to be estimated: solve_intrinsics true, focal/center/distortion omitted (k3 held fixed for brown-conrady)',
+    )
     .option('--force', 'overwrite existing files in the output folder')
     .action((file: string, o: Record<string, unknown>) => {
       const desc = loadRigDescription(file);
+      if (o.solveIntrinsics) {
+        for (const c of desc.cameras) {
+          c.spec.solveIntrinsics = true;
+          c.spec.intrinsicsGiven = false;
+          c.spec.fixedIntrinsics = c.spec.model === 'brown-conrady' ? ['k3'] : [];
+        }
+      }
       const overrides: Partial<CapturePlan> = {};
       if (o.frames !== undefined) overrides.frames = o.frames as number;
       if (o.seed !== undefined) overrides.seed = o.seed as number;

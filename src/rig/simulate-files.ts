@@ -32,13 +32,15 @@ export function sessionObject(sim: Simulation): Record<string, unknown> {
     cameras: d.cameras.map((c) => {
       const s = c.spec;
       const nd = s.params.length - 4;
+      // A camera whose intrinsics are to be estimated from scratch (intrinsicsGiven false) is written without them.
+      const intr = s.intrinsicsGiven
+        ? { focal: [s.params[0], s.params[1]], center: [s.params[2], s.params[3]], distortion: Array.from(s.params.subarray(4, 4 + nd)) }
+        : {};
       return {
         name: s.name,
         resolution: s.resolution,
         model: s.model,
-        focal: [s.params[0], s.params[1]],
-        center: [s.params[2], s.params[3]],
-        distortion: Array.from(s.params.subarray(4, 4 + nd)),
+        ...intr,
         solve_intrinsics: s.solveIntrinsics,
         ...(s.fixedIntrinsics.length > 0 && s.solveIntrinsics ? { fixed_intrinsics: s.fixedIntrinsics } : {}),
         pixel_sigma: sim.plan.pixelNoisePx > 0 ? sim.plan.pixelNoisePx : s.pixelSigma,
