@@ -17,6 +17,8 @@ export interface CliIo {
   stdout: (text: string) => void;
   /** Receives text for stderr (callers include the newline). */
   stderr: (text: string) => void;
+  /** True when stderr is a terminal (progress indicators redraw one line); default false for injected sinks. */
+  stderrIsTTY?: boolean;
 }
 
 export interface CliContext {

@@ -13,11 +13,12 @@ import { registerSchema } from './schema.js';
 import { registerValidate } from './validate.js';
 import { registerSolve } from './solve.js';
 import { registerSimulate } from './simulate.js';
+import { registerDetect } from './detect.js';
 
 export const VERSION = '0.1.0';
 
 /** Every command, one registration function each (src/cli/<command>.ts). */
-export const COMMANDS: RegisterCommand[] = [registerSolve, registerSimulate, registerValidate, registerSchema];
+export const COMMANDS: RegisterCommand[] = [registerDetect, registerSolve, registerSimulate, registerValidate, registerSchema];
 
 /** Builds a fresh program bound to `ctx` (a new one per run: commander keeps state). */
 export function createProgram(ctx: CliContext): Command {
@@ -43,7 +44,11 @@ export function createProgram(ctx: CliContext): Command {
  * and returns the exit code. Never calls process.exit and never throws.
  */
 export async function run(argv: readonly string[], io: Partial<CliIo> = {}): Promise<number> {
-  const sinks: CliIo = { stdout: io.stdout ?? processIo.stdout, stderr: io.stderr ?? processIo.stderr };
+  const sinks: CliIo = {
+    stdout: io.stdout ?? processIo.stdout,
+    stderr: io.stderr ?? processIo.stderr,
+    stderrIsTTY: io.stderrIsTTY ?? (io.stderr === undefined && Boolean(process.stderr.isTTY)),
+  };
   let program: Command | undefined;
   const ctx: CliContext = {
     io: sinks,
