@@ -56,7 +56,7 @@ export function detectionsCsv(sim: Simulation): string {
 }
 
 /** The true rig as a rig file (zero covariance). */
-export function truthRig(sim: Simulation): RigFile {
+export function truthRig(sim: Pick<Simulation, 'description' | 'T_ref_cam'>): RigFile {
   const d = sim.description;
   const cameras: RigCamera[] = d.cameras.map((c) => {
     const T = sim.T_ref_cam.get(c.spec.name)!;
