@@ -13,7 +13,7 @@
  *   session.yaml          detections: detections.csv (written by `rigsolve detect`)
  *   session-photos.yaml   detections: photos/{camera}/{frame}.jpg (`rigsolve solve` detects first)
  *   truth.yaml            the true rig (rig-calibration/1, zero covariance)
- *   corners-truth.csv     exact corner projections of the boards fully in view (detections columns)
+ *   corners-truth.csv     exact corner projections in the photos where every inner corner is in view (detections columns)
  */
 import * as fs from 'node:fs';
 import * as nodePath from 'node:path';
@@ -88,8 +88,8 @@ export function makeExamplePhotos(desc: RigDescription, opts: ExampleSetOptions)
       fs.writeFileSync(file, jpg);
       bytes += jpg.length;
       files.push(file);
-      if (r.boardInside) {
-        fullyVisible++;
+      if (r.boardInside) fullyVisible++;
+      if (r.allCornersInside) {
         const n = r.cornersPx.length / 2;
         for (let i = 0; i < n; i++) truthRows.push(`${f.frame},${c.name},${board.name},${i},${r.cornersPx[2 * i]!.toFixed(4)},${r.cornersPx[2 * i + 1]!.toFixed(4)}`);
       }
