@@ -25,6 +25,11 @@ const pinhole: CameraModel = {
     ray.set([x / l, y / l, 1 / l]);
     return true;
   },
+  unprojectToPlane(k, uv, out2) {
+    out2[0] = (uv[0]! - k[2]!) / k[0]!;
+    out2[1] = (uv[1]! - k[3]!) / k[1]!;
+    return true;
+  },
 };
 const K = [800, 790, 320.5, 240.5];
 
