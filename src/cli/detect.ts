@@ -91,7 +91,7 @@ export function registerDetect(program: Command, ctx: CliContext): void {
     .option('--quiet', 'no progress indicator on stderr')
     .action(async (sessionPath: string, o: { images?: string; out?: string; force?: boolean; workers?: number; quiet?: boolean }) => {
       const session = loadSession(sessionPath, { detections: 'skip' });
-      const pattern = o.images !== undefined ? nodePath.resolve(o.images) : session.detectionsPattern;
+      const pattern = o.images ?? session.detectionsPattern;
       if (pattern === undefined) {
         throw new OptionsError(
           'detect.no_pattern',

@@ -201,7 +201,7 @@ export function planSessionDetection(session: Session, pattern: string): { jobs:
       if (!perTarget && board !== boards[0]) continue;
       const concrete = pattern.replaceAll('{camera}', cam.name).replaceAll('{target}', board.name);
       const { matches, missingDir } = listPatternFiles(concrete);
-      if (matches.length === 0) missing.push(missingDir !== undefined ? `${concrete} (folder ${missingDir} does not exist)` : concrete);
+      if (matches.length === 0) missing.push(missingDir !== undefined ? `folder ${missingDir} does not exist` : `looked for ${concrete}`);
       for (const m of matches) {
         if (/[,"\r\n]/.test(m.frame)) {
           issues.push({ file: m.file, message: `frame id "${m.frame}" contains a comma, quote or line break`, hint: 'rename the file: frame ids are written to a CSV column' });
@@ -219,7 +219,7 @@ export function planSessionDetection(session: Session, pattern: string): { jobs:
     if (!any) {
       for (const where of missing) {
         issues.push({
-          message: `no image for camera "${cam.name}" matches the pattern "${pattern}" (looked for ${where})`,
+          message: `no image for camera "${cam.name}" matches the pattern "${pattern}" (${where})`,
           hint: '{camera} is replaced by the camera name of the session and {frame} matches any text; check the folder and file names',
         });
       }
