@@ -3,7 +3,8 @@
  * detections, LM iterations, total seconds (PnP, initialisation, every solve
  * and the covariance), nanoseconds per detection per LM iteration, and peak
  * resident memory. Each case runs in its own child process so that peak
- * memory is per case. Targets on a 2-core machine: L under 1.5 s in total, at
+ * memory is per case. Then checkerboard detection: milliseconds per
+ * 1280x800 image on one core (target ≤ 200 ms), from detect-bench.ts. Targets on a 2-core machine: L under 1.5 s in total, at
  * most 150 ns per detection per iteration, peak memory under 400 MB.
  *
  *   node dist/bench/bench.js            all cases
@@ -16,6 +17,7 @@ import { loadRigDescription } from '../rig/description-file.js';
 import { simulate } from '../rig/simulate.js';
 import { sessionFromSimulation } from '../rig/simulate-session.js';
 import { solveRig } from '../rig/solve.js';
+import { runDetectBench } from './detect-bench.js';
 
 const here = nodePath.dirname(fileURLToPath(import.meta.url));
 const rigsDir = nodePath.resolve(here, '..', '..', 'rigs');
@@ -104,4 +106,8 @@ if (only >= 0) {
         .padStart(7)}  ${r.lmSeconds.toFixed(3).padStart(5)}  ${r.nsPerDetectionIteration.toFixed(0).padStart(11)}  ${r.peakRssMb.toFixed(0).padStart(11)}`,
     );
   }
+  console.log('');
+  const det = runDetectBench(8);
+  console.log(`checkerboard detection: ${det.meanMs.toFixed(1)} ms per 1280x800 image on one core (median ${det.medianMs.toFixed(1)} ms; target ≤ 200 ms)`);
+  for (const line of det.lines) console.log(`  ${line}`);
 }

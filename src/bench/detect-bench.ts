@@ -8,9 +8,9 @@
  * call `runDetectBench(count)` from another bench script.
  */
 import { pathToFileURL } from 'node:url';
-import { renderBoard, type RenderCamera, type RenderResult } from '../testing/render-board.js';
-import { sampleVisibleBoard } from '../testing/board-poses.js';
-import { rng } from '../testing/numeric.js';
+import { renderBoard, type RenderCamera, type RenderResult } from '../synth/render-board.js';
+import { sampleVisibleBoard } from '../synth/board-poses.js';
+import { rng } from '../util/random.js';
 import { detectCheckerboard } from '../detect/checkerboard.js';
 import { decodeImage, encodePng } from '../detect/image.js';
 

@@ -17,12 +17,14 @@ import { registerReport } from './report.js';
 import { registerCheck } from './check.js';
 import { registerCompare } from './compare.js';
 import { registerExport } from './export.js';
+import { registerDetect } from './detect.js';
 
 export const VERSION = '0.1.0';
 
 /** Every command, one registration function each (src/cli/<command>.ts). */
 export const COMMANDS: RegisterCommand[] = [
   registerSolve,
+  registerDetect,
   registerCheck,
   registerCompare,
   registerExport,

@@ -20,6 +20,9 @@ import { solveSummaryJson, solveSummaryText } from '../report/summary.js';
 import { EXIT_FAILED, OptionsError } from '../errors.js';
 import type { CliContext } from './context.js';
 import { commandProgress } from './progress.js';
+import { detectionReportLines, sessionWithDetections } from '../detect/session-detect.js';
+import { noBoardLines, runImageDetection } from './detect.js';
+import { parseNumber } from './simulate.js';
 
 /** One iteration-log line. */
 export function iterationLine(stage: string, r: IterationRecord): string {
@@ -46,6 +49,8 @@ export function registerSolve(program: Command, ctx: CliContext): void {
         'initialisation over the view graph, robust joint bundle adjustment, outlier rejection and covariance. ' +
         'Writes the rig file (format: rig-calibration/1) atomically and prints a summary per camera; with --report ' +
         'also a self-contained HTML report. Progress and the iteration log go to stderr when it is a terminal. ' +
+        "When the session's detections: is an image pattern (e.g. photos/{camera}/{frame}.png, relative to the session; " +
+        'see rigsolve detect --help), the checkerboards are first detected in the photos, in memory. ' +
         'Exit codes: 0 solved, 1 ran but failed (no convergence, disconnected cameras), 2 invalid input.',
     )
     .argument('<session>', 'session file (YAML or JSON)')
@@ -56,8 +61,12 @@ export function registerSolve(program: Command, ctx: CliContext): void {
     .option('--prior <rig-description>', 'design prior: a rig description (see rigs/) whose cameras carry sigma_position_mm and sigma_rotation_deg')
     .option('--json', 'print the summary as JSON instead of a table')
     .option('--quiet', 'no progress or iteration log on stderr')
+    .option('--workers <n>', 'worker threads for detection when detections: is an image pattern (default: one per core)', parseNumber('--workers', { integer: true, min: 1 }))
     .action(
-      (sessionPath: string, o: { out: string; report?: string; force?: boolean; loss: string; json?: boolean; quiet?: boolean; prior?: string }) => {
+      async (
+        sessionPath: string,
+        o: { out: string; report?: string; force?: boolean; loss: string; json?: boolean; quiet?: boolean; prior?: string; workers?: number },
+      ) => {
         if (!['huber', 'cauchy', 'none'].includes(o.loss)) {
           throw new OptionsError('options.loss', `unknown --loss "${o.loss}"; choose huber, cauchy or none`);
         }
@@ -67,9 +76,20 @@ export function registerSolve(program: Command, ctx: CliContext): void {
         progress.status(`loading ${sessionPath} …`);
         let session;
         try {
-          session = loadSession(sessionPath);
+          session = loadSession(sessionPath, { detections: 'csv-or-images' });
         } finally {
           progress.end();
+        }
+        if (session.detectionsPattern !== undefined) {
+          // detections: is an image pattern: detect in memory first (nothing is written besides the outputs).
+          const det = await runImageDetection(session, session.detectionsPattern, ctx, o);
+          if (det.found === 0) {
+            for (const line of noBoardLines(det)) ctx.err(line);
+            ctx.exitCode = EXIT_FAILED;
+            return;
+          }
+          if (!o.quiet) for (const line of detectionReportLines(det)) progress.log(line);
+          session = sessionWithDetections(session, det);
         }
         progress.log(`loaded ${sessionPath}: ${session.cameras.length} cameras, ${session.frames.length} frames, ${session.detections.count} detections`);
         let solution;

@@ -43,7 +43,8 @@ export function sessionSummary(s: Session, file: string): string[] {
         : `points`;
     lines.push(`    ${t.name.padEnd(w)}  ${desc} (${t.numPoints} points)`);
   }
-  lines.push(`  frames: ${s.frames.length}`, `  detections: ${s.detections.count}`);
+  if (s.detectionsPattern !== undefined) lines.push(`  detections: from images ${s.detectionsPattern} (found by solve; run rigsolve detect to check them)`);
+  else lines.push(`  frames: ${s.frames.length}`, `  detections: ${s.detections.count}`);
   return lines;
 }
 
@@ -66,7 +67,7 @@ export function registerValidate(program: Command, ctx: CliContext): void {
       if (fmt !== undefined && fmt.startsWith(RIG_FORMAT.split('/')[0]! + '/')) {
         for (const l of rigSummary(loadRigFile(file), file)) ctx.out(l);
       } else {
-        for (const l of sessionSummary(loadSession(file), file)) ctx.out(l);
+        for (const l of sessionSummary(loadSession(file, { detections: 'csv-or-images' }), file)) ctx.out(l);
       }
     });
 }

@@ -4,8 +4,8 @@
  * (src/testing/render-board.ts) with exact ground truth.
  */
 import { describe, expect, test } from 'vitest';
-import { projectBoardPoint, renderBoard, type RenderCamera } from '../testing/render-board.js';
-import { sampleVisibleBoard } from '../testing/board-poses.js';
+import { projectBoardPoint, renderBoard, type RenderCamera } from '../synth/render-board.js';
+import { sampleVisibleBoard } from '../synth/board-poses.js';
 import { gaussian, rng } from '../testing/numeric.js';
 import { detectCheckerboard, gaussianBlur } from './checkerboard.js';
 import type { GreyImage } from './image.js';

@@ -12,8 +12,8 @@
  * 8-bit quantisation.
  */
 import { beforeAll, describe, expect, test } from 'vitest';
-import { renderBoard, type RenderCamera } from '../testing/render-board.js';
-import { sampleVisibleBoard } from '../testing/board-poses.js';
+import { renderBoard, type RenderCamera } from '../synth/render-board.js';
+import { sampleVisibleBoard } from '../synth/board-poses.js';
 import { rng } from '../testing/numeric.js';
 import { detectCheckerboard } from './checkerboard.js';
 

@@ -2,7 +2,7 @@ import { describe, expect, test } from 'vitest';
 import { PNG } from 'pngjs';
 import { decodeImage, encodeJpeg, encodePng, rgbaToGrey, sniffImageFormat } from './image.js';
 import { InputError } from '../errors.js';
-import { renderBoard } from '../testing/render-board.js';
+import { renderBoard } from '../synth/render-board.js';
 import { detectCheckerboard } from './checkerboard.js';
 import { so3Exp } from '../geometry/so3.js';
 

@@ -15,5 +15,17 @@ export { runDetectJob } from './job.js';
 export type { DetectJob, DetectJobResult } from './job.js';
 export { detectFiles, plannedWorkerCount, workersAvailable } from './workers.js';
 export type { DetectFilesOptions } from './workers.js';
-export { renderExamplePhotos } from './render-examples.js';
-export type { ExampleCamera, ExampleFrame, ExamplePhotosSpec, ExamplePhoto } from './render-examples.js';
+export {
+  detectSession,
+  planSessionDetection,
+  checkImagePattern,
+  listPatternFiles,
+  compareFrameIds,
+  detectionsCsv,
+  sessionWithDetections,
+  detectionReportLines,
+  notFoundAdviceLines,
+  NOT_FOUND_ADVICE,
+  PATTERN_PLACEHOLDERS,
+} from './session-detect.js';
+export type { SessionDetection, SessionDetectOptions, CameraDetectionReport, DetectedView, NotFoundReason, PatternMatch } from './session-detect.js';

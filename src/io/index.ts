@@ -1,5 +1,5 @@
 export type * from './types.js';
-export { loadSession, loadSessionCollect, buildTarget, DEFAULT_FOCAL_PER_WIDTH, type CameraSpecWithProvenance } from './session.js';
+export { loadSession, loadSessionCollect, isImagePattern, emptyDetectionTable, buildTarget, type SessionLoadOptions, DEFAULT_FOCAL_PER_WIDTH, type CameraSpecWithProvenance } from './session.js';
 export {
   loadDetections,
   loadDetectionsCollect,

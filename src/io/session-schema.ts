@@ -84,7 +84,10 @@ export const sessionSchema = z
     cameras: z.array(cameraSchema).min(1),
     targets: z.array(targetSchema).min(1),
     scene: z.enum(['moving_targets', 'fixed_targets']).optional(),
-    detections: z.string().min(1).meta({ description: 'Detections CSV, relative to the session file.' }),
+    detections: z
+      .string()
+      .min(1)
+      .meta({ description: 'Detections CSV, relative to the session file; or an image pattern with {camera} and {frame} placeholders (e.g. photos/{camera}/{frame}.png), detected by solve.' }),
   })
   .meta({ title: 'rigsolve session (rig-session/1)' });
 
@@ -104,7 +107,7 @@ export const SESSION_FIELD_HELP: Record<string, string> = {
   cameras: 'list at least one camera under cameras:',
   targets: 'list at least one target under targets:',
   scene: 'use scene: moving_targets (rig still, targets move) or scene: fixed_targets (rig moves)',
-  detections: 'give the detections CSV path, relative to the session file',
+  detections: 'give the detections CSV path (or an image pattern such as photos/{camera}/{frame}.png), relative to the session file',
   resolution: 'write resolution: [width, height] in pixels, positive integers',
   model: `use one of ${CAMERA_MODEL_NAMES.join(', ')}`,
   focal: 'write focal: [fx, fy] in pixels, both > 0',

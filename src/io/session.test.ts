@@ -104,6 +104,45 @@ describe('loadSession', () => {
   });
 });
 
+describe('loadSession detections modes', () => {
+  const withPattern = VALID_SESSION.replace('detections: detections.csv', 'detections: photos/{camera}/{frame}.png');
+
+  test("'skip' loads a session whose detections file does not exist yet, with no detections", () => {
+    const file = writeSessionFixture(VALID_SESSION, null);
+    expect(catchInput(() => loadSession(file)).issues[0]!.message).toContain('not found');
+    const s = loadSession(file, { detections: 'skip' });
+    expect(s.cameras).toHaveLength(2);
+    expect(s.detections.count).toBe(0);
+    expect(s.frames).toEqual([]);
+    expect(s.detectionsPath).toBe(path.join(path.dirname(path.resolve(file)), 'detections.csv'));
+    expect(s.detectionsPattern).toBeUndefined();
+  });
+
+  test("'skip' still reports session issues", () => {
+    const file = writeSessionFixture(VALID_SESSION.replace('reference_camera: cam_a', 'reference_camera: cam_x'), null);
+    expect(catchInput(() => loadSession(file, { detections: 'skip' })).issues[0]!.message).toContain('cam_x');
+  });
+
+  test('an image pattern is an issue by default and accepted on request, resolved against the session folder', () => {
+    const file = writeSessionFixture(withPattern, null);
+    const err = catchInput(() => loadSession(file));
+    expect(err.issues).toHaveLength(1);
+    expect(err.issues[0]!.path).toBe('detections');
+    expect(err.issues[0]!.hint).toContain('rigsolve detect');
+    for (const mode of ['csv-or-images', 'skip'] as const) {
+      const s = loadSession(file, { detections: mode });
+      expect(s.detectionsPattern).toBe(path.join(path.dirname(path.resolve(file)), 'photos/{camera}/{frame}.png'));
+      expect(s.detections.count).toBe(0);
+    }
+  });
+
+  test("'csv-or-images' reads a CSV as usual", () => {
+    const s = loadSession(writeSessionFixture(), { detections: 'csv-or-images' });
+    expect(s.detections.count).toBe(6);
+    expect(s.detectionsPattern).toBeUndefined();
+  });
+});
+
 describe('buildTarget', () => {
   test('checkerboard point id = row*columns + column at (column*square, row*square, 0)', () => {
     const t = buildTarget({ name: 'b', kind: 'checkerboard', inner_corners: [4, 3], square: 0.05 });

@@ -16,7 +16,7 @@
 import * as nodePath from 'node:path';
 import type { InputIssue } from '../errors.js';
 import type { CameraModelName } from '../camera/model.js';
-import type { CameraSpec, Session, TargetSpec } from './types.js';
+import type { CameraSpec, DetectionTable, Session, TargetSpec } from './types.js';
 import { didYouMean, IssueCollector, describeValue } from './issues.js';
 import { parseYaml, readTextFile, zodIssuesToInput, type YamlSource } from './yaml-source.js';
 import {
@@ -40,16 +40,34 @@ export interface CameraSpecWithProvenance extends CameraSpec {
   intrinsicsProvided?: { focal: boolean; center: boolean; distortion: boolean };
 }
 
+/** True when a session's `detections:` value is an image pattern (it contains `{camera}`), not a CSV path. */
+export function isImagePattern(value: string): boolean {
+  return value.includes('{camera}');
+}
+
+export interface SessionLoadOptions {
+  /**
+   * How to treat `detections:`:
+   * - 'csv' (default): read and check the detections CSV; an image pattern is an issue;
+   * - 'csv-or-images': as 'csv', but an image pattern is accepted: the session comes back with
+   *   `detectionsPattern` set and no detections (the caller detects them, as `solve` does);
+   * - 'skip': never read the detections (the file need not exist yet; `detect` writes it).
+   * Sessions loaded without detections have an empty table and no frames.
+   */
+  detections?: 'csv' | 'csv-or-images' | 'skip';
+}
+
 /** Loads a session and its detections. Throws InputError with every issue found. */
-export function loadSession(path: string): Session {
+export function loadSession(path: string, opts: SessionLoadOptions = {}): Session {
   const issues = new IssueCollector();
-  const session = loadSessionCollect(path, issues);
+  const session = loadSessionCollect(path, issues, opts);
   issues.throwIfAny('session.invalid');
   return session!;
 }
 
 /** Like loadSession, but adds issues to `issues` and returns undefined on failure. */
-export function loadSessionCollect(path: string, issues: IssueCollector): Session | undefined {
+export function loadSessionCollect(path: string, issues: IssueCollector, opts: SessionLoadOptions = {}): Session | undefined {
+  const mode = opts.detections ?? 'csv';
   const f = readTextFile(path, issues, 'session');
   if (!f) return undefined;
   const src = parseYaml(path, f.text, issues);
@@ -117,10 +135,25 @@ export function loadSessionCollect(path: string, issues: IssueCollector): Sessio
 
   // Detections: loaded even when the session has issues, so that all problems are listed at once.
   let detectionsPath: string | undefined;
+  let detectionsPattern: string | undefined;
   let loaded: ReturnType<typeof loadDetectionsCollect>;
-  // Without cameras or targets every row would be "unknown"; those issues would only be noise.
-  if (typeof raw.detections === 'string' && raw.detections !== '' && rawCameras.length > 0 && rawTargets.length > 0) {
+  const pattern = typeof raw.detections === 'string' && isImagePattern(raw.detections);
+  if (typeof raw.detections === 'string' && raw.detections !== '') {
     detectionsPath = nodePath.isAbsolute(raw.detections) ? raw.detections : nodePath.join(nodePath.dirname(path), raw.detections);
+    if (pattern) detectionsPattern = detectionsPath;
+  }
+  if (pattern && mode === 'csv') {
+    issues.add(
+      src.issueAt(
+        ['detections'],
+        `detections "${String(raw.detections)}" is an image pattern, not a detections CSV`,
+        'run "rigsolve detect SESSION" to write detections.csv from the images, or "rigsolve solve SESSION", which detects first',
+      ),
+    );
+  } else if (pattern || mode === 'skip') {
+    if (detectionsPath !== undefined) loaded = { table: emptyDetectionTable(), frames: [], perCamera: rawCameras.map(() => 0) };
+  } else if (detectionsPath !== undefined && rawCameras.length > 0 && rawTargets.length > 0) {
+    // Without cameras or targets every row would be "unknown"; those issues would only be noise.
     const ctx: DetectionContext = {
       cameras: rawCameras.map((_rc, i) => {
         // Well-formed cameras give their resolution (for the pixel bounds check) even if a cross-field rule failed.
@@ -155,8 +188,24 @@ export function loadSessionCollect(path: string, issues: IssueCollector): Sessio
     targets: targets as TargetSpec[],
     scene: s.scene ?? 'moving_targets',
     detectionsPath: nodePath.resolve(detectionsPath),
+    ...(detectionsPattern !== undefined ? { detectionsPattern: nodePath.resolve(detectionsPattern) } : {}),
     frames: loaded.frames,
     detections: loaded.table,
+  };
+}
+
+/** A detection table with no rows. */
+export function emptyDetectionTable(): DetectionTable {
+  return {
+    count: 0,
+    frame: new Int32Array(0),
+    camera: new Int32Array(0),
+    target: new Int32Array(0),
+    point: new Int32Array(0),
+    u: new Float64Array(0),
+    v: new Float64Array(0),
+    sigma: new Float64Array(0),
+    line: new Int32Array(0),
   };
 }
 

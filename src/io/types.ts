@@ -64,8 +64,14 @@ export interface Session {
   cameras: CameraSpec[];
   targets: TargetSpec[];
   scene: SceneMode;
-  /** Path of the detections CSV as resolved against the session file. */
+  /** Path of the detections CSV as resolved against the session file (the pattern itself when `detections:` is an image pattern). */
   detectionsPath: string;
+  /**
+   * Set when `detections:` is an image pattern (contains `{camera}`): the pattern
+   * resolved against the session file's folder. The detections are then found
+   * in the images by the caller (see detect/session-detect.ts).
+   */
+  detectionsPattern?: string;
   /** Distinct frame ids, in order of first appearance. */
   frames: string[];
   detections: DetectionTable;

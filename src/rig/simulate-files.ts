@@ -59,7 +59,7 @@ export function detectionsCsv(sim: Simulation): string {
 }
 
 /** The true rig as a rig file (zero covariance). */
-export function truthRig(sim: Simulation): RigFile {
+export function truthRig(sim: Pick<Simulation, 'description' | 'T_ref_cam'> & Partial<Pick<Simulation, 'T_origin_target'>>): RigFile {
   const d = sim.description;
   const cameras: RigCamera[] = d.cameras.map((c) => {
     const T = sim.T_ref_cam.get(c.spec.name)!;
@@ -87,7 +87,7 @@ export function truthRig(sim: Simulation): RigFile {
   });
   const targets =
     d.scene === 'fixed_targets'
-      ? d.targets.map((t, i) => poseEntry(t.spec.name, i === 0 ? null : d.targets[0]!.spec.name, sim.T_origin_target.get(t.spec.name)!, new Array(36).fill(0)))
+      ? d.targets.map((t, i) => poseEntry(t.spec.name, i === 0 ? null : d.targets[0]!.spec.name, sim.T_origin_target!.get(t.spec.name)!, new Array(36).fill(0)))
       : [];
   return {
     format: 'rig-calibration/1',

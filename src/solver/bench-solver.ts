@@ -15,7 +15,7 @@ import { NormalEquations } from './schur.js';
 import { solve } from './lm.js';
 import { huberLoss } from './loss.js';
 import type { ResidualBlock } from './problem.js';
-import { gaussian, rng } from '../testing/numeric.js';
+import { gaussian, rng } from '../util/random.js';
 
 const NUM_CAM = 8;
 const NUM_FRAME = 500;

@@ -14,7 +14,7 @@
 import { Problem } from './problem-builder.js';
 import type { ResidualBlock } from './problem.js';
 import type { LossFunction } from './loss.js';
-import { gaussian, rng } from '../testing/numeric.js';
+import { gaussian, rng } from '../util/random.js';
 
 export interface PairsOptions {
   numA?: number;

@@ -76,3 +76,41 @@ export function sampleVisibleBoard(rand: () => number, cam: RenderCamera, board:
   }
   throw new Error('sampleVisibleBoard: no admissible pose in 10000 draws; the board is too large or too small for this camera');
 }
+
+/**
+ * True when the board's checkered area (outer squares included) projects
+ * inside the image with `marginPx` to spare, the camera sees the printed side
+ * (the camera centre lies on the board's −z side), and every square side is
+ * at least `minSquarePx`.
+ */
+export function boardInView(cam: RenderCamera, board: RenderBoard, T_cam_board: Pose, opts: { marginPx?: number; minSquarePx?: number } = {}): boolean {
+  const C = board.columns, Rn = board.rows, s = board.squareM;
+  const m = opts.marginPx ?? 2, minSq = opts.minSquarePx ?? 0;
+  const R = T_cam_board.R, t = T_cam_board.t;
+  // Camera centre in board coordinates: z = −(R column 3 · t).
+  if (!(-(R[2]! * t[0]! + R[5]! * t[1]! + R[8]! * t[2]!) < 0)) return false;
+  const uv = new Float64Array(2);
+  const n = 24;
+  for (let k = 0; k <= n; k++) {
+    const f = k / n;
+    for (const [X, Y] of [
+      [-s + f * (C + 1) * s, -s],
+      [-s + f * (C + 1) * s, Rn * s],
+      [-s, -s + f * (Rn + 1) * s],
+      [C * s, -s + f * (Rn + 1) * s],
+    ] as [number, number][]) {
+      if (!projectBoardPoint(cam, T_cam_board, X, Y, uv) || uv[0]! < m || uv[1]! < m || uv[0]! > cam.width - 1 - m || uv[1]! > cam.height - 1 - m) return false;
+    }
+  }
+  if (minSq > 0) {
+    const a = new Float64Array(2);
+    for (let r = 0; r < Rn; r++) {
+      for (let c = 0; c < C; c++) {
+        projectBoardPoint(cam, T_cam_board, c * s, r * s, uv);
+        if (c + 1 < C && projectBoardPoint(cam, T_cam_board, (c + 1) * s, r * s, a) && Math.hypot(a[0]! - uv[0]!, a[1]! - uv[1]!) < minSq) return false;
+        if (r + 1 < Rn && projectBoardPoint(cam, T_cam_board, c * s, (r + 1) * s, a) && Math.hypot(a[0]! - uv[0]!, a[1]! - uv[1]!) < minSq) return false;
+      }
+    }
+  }
+  return true;
+}

@@ -4,7 +4,7 @@ import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { so3Exp } from '../geometry/so3.js';
 import { renderExamplePhotos } from './render-examples.js';
-import { detectFiles } from './workers.js';
+import { detectFiles } from '../detect/workers.js';
 
 const scratch = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..', 'test-artifacts', `render-examples-${process.pid}`);
 afterAll(() => rmSync(scratch, { recursive: true, force: true }));

@@ -2,15 +2,15 @@
  * Renders example photos of a checkerboard for a rig of cameras: one image
  * per (camera, frame), written as PNG or JPEG, with the exact projected
  * corners returned as ground truth. Used to build example data sets from a
- * simulated rig; the rendering model is src/testing/render-board.ts
+ * simulated rig; the rendering model is render-board.ts
  * (Brown–Conrady or pinhole cameras, supersampled anti-aliasing, optional
  * blur, noise, gamma and uneven lighting).
  */
 import { mkdirSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { compose, inverse, type Pose } from '../geometry/se3.js';
-import { renderBoard, type RenderCamera, type RenderOptions } from '../testing/render-board.js';
-import { encodeJpeg, encodePng } from './image.js';
+import { renderBoard, type RenderCamera, type RenderOptions } from './render-board.js';
+import { encodeJpeg, encodePng } from '../detect/image.js';
 
 export interface ExampleCamera {
   /** Camera name (used in file names). */

@@ -27,7 +27,7 @@
  */
 import type { Pose } from '../geometry/se3.js';
 import type { GreyImage } from '../detect/image.js';
-import { gaussian, rng } from './numeric.js';
+import { gaussian, rng } from '../util/random.js';
 import { gaussianBlur } from '../detect/checkerboard.js';
 
 /** PNG writer for rendered images (grey, 8 bit). */
