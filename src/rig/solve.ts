@@ -41,6 +41,7 @@ import {
 } from './initialise.js';
 import { poseFromBlock, poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
 import { groupViews, viewData, type View } from './views.js';
+import { captureWarnings, poorlyConstrainedMessage } from './diagnostics.js';
 
 /** sqrt of the 99.9 % quantile of χ² with 2 degrees of freedom: sqrt(−2 ln 0.001). */
 export const OUTLIER_SIGMAS = Math.sqrt(-2 * Math.log(0.001));
@@ -308,11 +309,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     summary = runStage(round === 0 ? 'least squares' : `least squares (round ${round + 1})`, built);
   }
   const final = summary!;
+  warnings.push(...captureWarnings(session, views));
 
   // 6. Covariance of the camera extrinsics, frame poses marginalised.
   const covResult = computeCovariance(built.problem);
   if (!covResult.ok) {
-    throw new RigSolveError('rig.poorly_constrained', `the rig is poorly constrained: ${covResult.message}`);
+    throw new RigSolveError('rig.poorly_constrained', poorlyConstrainedMessage(covResult, session, views));
   }
   const cov = covResult.covariance;
   const sigma0 = Math.sqrt(cov.sigma0Squared);
