@@ -273,6 +273,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   // 5. Robust solve, then reject and re-solve with plain least squares.
   let built = build(undefined);
   let sigmaHat = robustSigma(errorNorms(built));
+  if (!Number.isFinite(sigmaHat)) throw new RigSolveError('rig.initialisation_failed', `the initial poses do not reproduce the detections (median reprojection error is not finite) → capture views in which the target covers a larger part of the image, and check the intrinsics`);
   if (o.loss !== 'none') {
     const a = o.lossScaleSigmas * Math.max(sigmaHat, 1e-6);
     built = build(o.loss === 'huber' ? huberLoss(a) : cauchyLoss(a));
