@@ -220,11 +220,13 @@ export function parseYaml(file: string, text: string, issues: IssueCollector): Y
   try {
     data = doc.toJS({ maxAliasCount: MAX_ALIAS_COUNT });
   } catch (e) {
-    issues.add({
-      file,
-      message: `YAML aliases expand too much (${(e as Error).message.split('\n')[0]})`,
-      hint: `write the values out or use fewer aliases (at most ${MAX_ALIAS_COUNT} expansions)`,
-    });
+    const first = (e as Error).message.split('\n')[0]!;
+    // The yaml package throws the same error type for an alias without an anchor and for an alias bomb.
+    issues.add(
+      /unresolved alias/i.test(first)
+        ? { file, message: `YAML syntax: ${first}`, hint: 'define the anchor (&name) before using the alias (*name), or write the value out' }
+        : { file, message: `YAML aliases expand too much (${first})`, hint: `write the values out or use fewer aliases (at most ${MAX_ALIAS_COUNT} expansions)` },
+    );
     return undefined;
   }
   return new YamlSource(file, doc, lineCounter, data);
