@@ -27,8 +27,9 @@ import { solveRig, type RigSolution } from '../src/rig/solve.js';
 import { makeTmpDir } from '../src/testing/io-fixtures.js';
 
 const RUNS = Math.max(10, Math.round(Number(process.env.FUZZ_RUNS ?? 60) / 3));
-/** Fixed seed in `npm test` (reproducible CI); FUZZ_SEED overrides; a longer FUZZ_RUNS run draws a fresh seed. */
-const FUZZ_SEED = process.env.FUZZ_SEED ? Number(process.env.FUZZ_SEED) : process.env.FUZZ_RUNS ? undefined : 20261201;
+/** Fixed seed in `npm test` (reproducible CI); FUZZ_SEED overrides; a FUZZ_RUNS run draws a fresh seed and prints it. */
+const FUZZ_SEED = process.env.FUZZ_SEED ? Number(process.env.FUZZ_SEED) : process.env.FUZZ_RUNS ? Date.now() % 2 ** 31 : 20261201;
+if (process.env.FUZZ_RUNS) console.log(`${RUNS} runs per property, FUZZ_SEED=${FUZZ_SEED} (set it to replay this run)`);
 
 /** Optical frame of a camera looking along +x of the body (x right = −y body, y down = −z body). */
 const LOOK_FORWARD = Float64Array.from([0, 0, 1, -1, 0, 0, 0, -1, 0]);

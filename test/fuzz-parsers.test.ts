@@ -18,8 +18,9 @@ import { loadSession } from '../src/io/session.js';
 import { makeTmpDir, VALID_CSV, VALID_SESSION } from '../src/testing/io-fixtures.js';
 
 const RUNS = Number(process.env.FUZZ_RUNS ?? 60);
-/** Fixed seed in `npm test` (reproducible CI); FUZZ_SEED overrides; a longer FUZZ_RUNS run draws a fresh seed. */
-const FUZZ_SEED = process.env.FUZZ_SEED ? Number(process.env.FUZZ_SEED) : process.env.FUZZ_RUNS ? undefined : 20261201;
+/** Fixed seed in `npm test` (reproducible CI); FUZZ_SEED overrides; a FUZZ_RUNS run draws a fresh seed and prints it. */
+const FUZZ_SEED = process.env.FUZZ_SEED ? Number(process.env.FUZZ_SEED) : process.env.FUZZ_RUNS ? Date.now() % 2 ** 31 : 20261201;
+if (process.env.FUZZ_RUNS) console.log(`${RUNS} runs per property, FUZZ_SEED=${FUZZ_SEED} (set it to replay this run)`);
 const TIMEOUT = Math.max(30_000, RUNS * 500);
 
 /** Tokens that stress the YAML and CSV readers and the schema. */
