@@ -36,13 +36,14 @@ export class RigCalError extends Error {
   }
 }
 
-/** Renders one issue as a single line: `file:line path: message → hint`. */
+/** Renders one issue as a single line: `file:line path: message → hint` (line breaks in the text are shown escaped). */
 export function formatIssue(issue: InputIssue): string {
   let where = issue.file ?? '';
   if (issue.line !== undefined) where += `:${issue.line}`;
   if (issue.path) where += where ? ` ${issue.path}` : issue.path;
   const head = where ? `${where}: ` : '';
-  return `${head}${issue.message}${issue.hint ? ` → ${issue.hint}` : ''}`;
+  // One line per issue, whatever text from the input ended up in the message.
+  return `${head}${issue.message}${issue.hint ? ` → ${issue.hint}` : ''}`.replace(/\r\n|\r|\n/g, '\\n');
 }
 
 /** Invalid input (exit code 2). Collects every issue found, not just the first. */

@@ -87,6 +87,7 @@ const cases: Case[] = [
   { name: 'YAML syntax error', session: sub(S, 'center: [320.0, 240.0]', 'center: [320.0, 240.0'), expect: ['YAML syntax'] },
   { name: 'duplicate YAML key', session: sub(S, 'scene: moving_targets', 'scene: moving_targets\nscene: fixed_targets'), expect: ['YAML syntax', 'unique'], at: `session.yaml:${lineOf(S, 'scene:') + 1}` },
   { name: 'alias bomb (billion laughs)', session: aliasBomb, expect: ['aliases expand too much'] },
+  { name: 'alias without an anchor', session: sub(S, 'scene: moving_targets', 'scene: *nowhere'), expect: ['YAML syntax', 'nresolved alias', 'define the anchor'] },
   { name: 'non-UTF-8 bytes in the session', session: Buffer.concat([Buffer.from(S.slice(0, S.indexOf('name: test-rig'))), Buffer.from([0x6e, 0x61, 0x6d, 0x65, 0x3a, 0x20, 0xff, 0xfe, 0x0a]), Buffer.from(S.slice(S.indexOf('reference_camera')))]), expect: ['not valid UTF-8', 'save the file as UTF-8'], at: 'session.yaml:2' },
   { name: 'a list instead of a mapping', session: '- a\n- b\n', expect: ['expected a mapping of session fields'] },
   { name: 'detections file missing', csv: null, expect: ['detections.csv', 'not found', 'relative to the session file'], at: `session.yaml:${lineOf(S, 'detections:')}` },
@@ -196,4 +197,105 @@ describe('unusual but valid input loads', () => {
     expect(code).toBe(0);
     expect(out).toContain('rig "test-rig" is valid');
   });
+});
+
+/** Runs `rigsolve solve FILE --out rig.yaml` (beside the session) in-process. */
+async function runSolve(file: string): Promise<{ code: number; out: string; err: string; outFile: string }> {
+  let out = '';
+  let err = '';
+  const outFile = path.join(path.dirname(file), 'rig.yaml');
+  const code = await run(['solve', file, '--out', outFile, '--quiet'], { stdout: (t) => (out += t), stderr: (t) => (err += t) });
+  return { code, out, err, outFile };
+}
+
+/** The ✖-line contract shared by validate and solve. */
+function expectLocatedLines(err: string): void {
+  const lines = err.trimEnd().split('\n');
+  expect(lines.length).toBeGreaterThan(0);
+  for (const l of lines) {
+    expect(l.startsWith('✖ '), l).toBe(true);
+    if (!l.startsWith('✖ and ')) {
+      expect(l).toMatch(/(session\.yaml|detections\.csv)(:\d+)?/);
+      expect(l, l).toContain(' → ');
+    }
+  }
+  expect(err).not.toMatch(/\n\s+at /);
+  expect(err).not.toContain('unexpected error');
+}
+
+/** A representative subset of the catalogue: structure, types, names, numbers, bytes, CSV shape. */
+const SOLVE_CASES = [
+  'missing format',
+  'unknown top-level key',
+  'focal of the wrong type',
+  'negative focal',
+  'zero resolution',
+  'NaN focal',
+  'duplicate camera names',
+  'reference camera not among cameras',
+  'YAML syntax error',
+  'alias bomb (billion laughs)',
+  'non-UTF-8 bytes in the session',
+  'detections file missing',
+  'unknown camera in detections',
+  'point id out of range',
+  'NaN u',
+  'pixel outside the image',
+  'duplicate detection row',
+  'wrong field count',
+  'empty detections file',
+  'camera with no detections',
+  'non-UTF-8 bytes in detections',
+  'unterminated quote',
+];
+
+const MB50 = 50 * 1024 * 1024;
+const bigCases: Case[] = [
+  {
+    name: 'a 50 MB line in the detections (a frame id that never ends)',
+    csv: `${C}f9,cam_a,board,0,1,${'7'.repeat(MB50)}x\n`,
+    expect: ['is not a finite number'],
+    at: 'detections.csv:8',
+  },
+  {
+    name: 'a 50 MB line in the session (an unterminated quoted name)',
+    session: sub(S, 'name: test-rig', `name: "${'x'.repeat(MB50)}`),
+    expect: ['50.0 Mi characters long', 'unclosed quote'],
+    at: 'session.yaml:2',
+  },
+];
+
+describe('solve rejects bad input: exit code 2, no output file, no temp file, located one-line messages', () => {
+  const byName = new Map(cases.map((c) => [c.name, c]));
+  test('every listed case is in the catalogue', () => {
+    for (const n of SOLVE_CASES) expect(byName.has(n), n).toBe(true);
+  });
+
+  test.each([...SOLVE_CASES.map((n) => [n, byName.get(n)!] as const), ...bigCases.map((c) => [c.name, c] as const)])(
+    '%s',
+    { timeout: 30_000 },
+    async (_name, c) => {
+      const file = writeSessionFixture(c.session ?? S, c.csv === undefined ? C : c.csv);
+      const dir = path.dirname(file);
+      const before = fs.readdirSync(dir).sort();
+      const rssBefore = process.memoryUsage().rss;
+      const { code, out, err, outFile } = await runSolve(file);
+      const rssAfter = process.memoryUsage().rss;
+      expect(code, err).toBe(2);
+      expect(out).toBe('');
+      expect(fs.existsSync(outFile)).toBe(false);
+      // Nothing new in the folder: no rig file and no temporary file.
+      expect(fs.readdirSync(dir).sort()).toEqual(before);
+      expectLocatedLines(err);
+      for (const e of c.expect) {
+        if (typeof e === 'string') expect(err, err).toContain(e);
+        else expect(err, err).toMatch(e);
+      }
+      if (c.at) expect(err, err).toContain(c.at);
+      // Loose memory bound: the resident set grows by well under a gigabyte even for the 50 MB lines.
+      expect(rssAfter - rssBefore).toBeLessThan(1024 * 1024 * 1024);
+      // Messages stay short even when the input line is 50 MB long.
+      expect(err.length).toBeLessThan(4000);
+    },
+  );
 });

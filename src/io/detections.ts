@@ -251,7 +251,7 @@ export function parseDetections(
       for (let k = 0; k < Math.min(nFields, MAX_FIELDS); k++) {
         const name = field(k).trim();
         if (seenCols.has(name)) {
-          add(recordLine, `column "${name}" appears twice in the header`, 'keep one column of each name');
+          add(recordLine, `column ${describeValue(name)} appears twice in the header`, 'keep one column of each name');
           ok = false;
           continue;
         }
@@ -261,7 +261,7 @@ export function parseDetections(
           const hint = ALL_COLUMNS.includes(lower)
             ? `column names are lower case: write "${lower}"`
             : `${didYouMean(name, ALL_COLUMNS, 'only the columns')}${name === '' ? '' : ' (extra columns are not allowed)'}`;
-          add(recordLine, name === '' ? `header column ${k + 1} is empty` : `unknown column "${name}" in the header`, hint);
+          add(recordLine, name === '' ? `header column ${k + 1} is empty` : `unknown column ${describeValue(name)} in the header`, hint);
           ok = false;
         }
       }

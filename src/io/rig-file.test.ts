@@ -35,7 +35,20 @@ describe('writeRigFile / loadRigFile', () => {
     const rig = validRig();
     const xs = randomDoubles(36 + 3 + 3 + 5, 7);
     const cam = rig.cameras[1]!;
-    cam.covariance = xs.slice(0, 36);
+    // A symmetric, diagonally dominant (hence PSD) covariance from the random doubles; row and column 0 are ±0.
+    const cov = xs.slice(0, 36);
+    for (let i = 0; i < 6; i++) for (let j = 0; j < i; j++) cov[i * 6 + j] = cov[j * 6 + i]!;
+    for (let k = 1; k < 6; k++) {
+      cov[k] = k % 2 ? -0 : 0;
+      cov[k * 6] = cov[k]!;
+    }
+    cov[0] = -0;
+    for (let i = 1; i < 6; i++) {
+      let s = 0;
+      for (let j = 0; j < 6; j++) if (j !== i) s += Math.abs(cov[i * 6 + j]!);
+      cov[i * 6 + i] = 2 * s + 1e-300;
+    }
+    cam.covariance = cov;
     cam.translation = [xs[36]!, xs[37]!, xs[38]!];
     cam.rpy_deg = [xs[39]!, xs[40]!, xs[41]!];
     cam.model = 'brown-conrady';

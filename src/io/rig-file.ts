@@ -16,6 +16,7 @@ import { writeFileAtomic, type WriteOptions } from './atomic.js';
 import { describeValue, didYouMean, IssueCollector } from './issues.js';
 import { parseYaml, readTextFile, zodIssuesToInput } from './yaml-source.js';
 import { MODEL_PARAM_NAMES, NAME_PATTERN } from './session-schema.js';
+import { symmetricPsd } from '../linalg/psd.js';
 
 export const RIG_FORMAT = 'rig-calibration/1';
 
@@ -124,8 +125,13 @@ export function writeRigFile(path: string, rig: RigFile, opts: WriteOptions = {}
 
 function checkRigData(rig: RigFile): string[] {
   const r = rigFileSchema.safeParse(rig);
-  if (r.success) return [];
-  return r.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`);
+  if (!r.success) return r.error.issues.map((i) => `${i.path.join('.')}: ${i.message}`);
+  const problems: string[] = [];
+  rig.cameras.forEach((c, i) => {
+    const p = symmetricPsd(c.covariance, 6);
+    if (!p.ok) problems.push(`cameras.${i}.covariance: not symmetric positive semi-definite (${p.message})`);
+  });
+  return problems;
 }
 
 /** Loads and validates a rig file. Throws InputError listing every issue. */
@@ -183,6 +189,12 @@ export function loadRigFileCollect(path: string, issues: IssueCollector): RigFil
       issues.add(src.issueAt(['cameras', i, 'quaternion_wxyz'], `quaternion norm is ${norm}, expected 1`, 'write a unit quaternion [w, x, y, z]'));
     } else if (q[0]! < 0) {
       issues.add(src.issueAt(['cameras', i, 'quaternion_wxyz'], `quaternion w = ${q[0]} is negative`, 'negate all four components (same rotation, w >= 0)'));
+    }
+    const psd = symmetricPsd(c.covariance, 6);
+    if (!psd.ok) {
+      issues.add(
+        src.issueAt(['cameras', i, 'covariance'], `covariance is not symmetric positive semi-definite: ${psd.message}`, 'write the 6x6 covariance of a solve unchanged (symmetric, row-major), or solve again'),
+      );
     }
     const nd = MODEL_PARAM_NAMES[c.model].length - 4;
     if (c.distortion.length !== nd) {

@@ -25,6 +25,13 @@ import { describeValue, didYouMean, IssueCollector, pathToString } from './issue
 export const MAX_INPUT_BYTES = 64 * 1024 * 1024;
 /** Largest number of alias expansions while converting a YAML document. */
 export const MAX_ALIAS_COUNT = 1000;
+/**
+ * Longest line accepted in a YAML/JSON file, characters (1 Mi). The YAML
+ * parser spends about a quarter of a second per megabyte inside one quoted
+ * scalar, so a runaway line (an unclosed quote, a binary file) is reported
+ * before parsing instead of taking tens of seconds and gigabytes.
+ */
+export const MAX_YAML_LINE_CHARS = 1024 * 1024;
 
 export interface TextFile {
   /** The path as given by the caller (used in messages). */
@@ -182,6 +189,21 @@ export class YamlSource {
  * documents and alias bombs become issues; `data` is then undefined.
  */
 export function parseYaml(file: string, text: string, issues: IssueCollector): YamlSource | undefined {
+  let lineNo = 1;
+  for (let start = 0; start <= text.length; lineNo++) {
+    let end = text.indexOf('\n', start);
+    if (end < 0) end = text.length;
+    if (end - start > MAX_YAML_LINE_CHARS) {
+      issues.add({
+        file,
+        line: lineNo,
+        message: `line is ${((end - start) / 1048576).toFixed(1)} Mi characters long, more than the ${MAX_YAML_LINE_CHARS / 1048576} Mi limit`,
+        hint: 'check for an unclosed quote or bracket on that line, or write long lists one item per line',
+      });
+      return undefined;
+    }
+    start = end + 1;
+  }
   const lineCounter = new LineCounter();
   const doc = parseDocument(text, { lineCounter, uniqueKeys: true, prettyErrors: false, strict: true });
   let bad = false;
@@ -198,11 +220,13 @@ export function parseYaml(file: string, text: string, issues: IssueCollector): Y
   try {
     data = doc.toJS({ maxAliasCount: MAX_ALIAS_COUNT });
   } catch (e) {
-    issues.add({
-      file,
-      message: `YAML aliases expand too much (${(e as Error).message.split('\n')[0]})`,
-      hint: `write the values out or use fewer aliases (at most ${MAX_ALIAS_COUNT} expansions)`,
-    });
+    const first = (e as Error).message.split('\n')[0]!;
+    // The yaml package throws the same error type for an alias without an anchor and for an alias bomb.
+    issues.add(
+      /unresolved alias/i.test(first)
+        ? { file, message: `YAML syntax: ${first}`, hint: 'define the anchor (&name) before using the alias (*name), or write the value out' }
+        : { file, message: `YAML aliases expand too much (${first})`, hint: `write the values out or use fewer aliases (at most ${MAX_ALIAS_COUNT} expansions)` },
+    );
     return undefined;
   }
   return new YamlSource(file, doc, lineCounter, data);

@@ -10,6 +10,8 @@ import { matrixToQuat, matrixToRpy } from '../geometry/rotation.js';
 import type { RigCamera, RigFile } from '../io/types.js';
 import type { CameraResult, RigSolution } from './solve.js';
 import type { Pose } from '../geometry/se3.js';
+import { symmetricPsd } from '../linalg/psd.js';
+import { NumericalError } from '../errors.js';
 
 export const RIG_FORMAT = 'rig-calibration/1';
 const DEG = 180 / Math.PI;
@@ -39,11 +41,28 @@ function clean(x: number): number {
   return Object.is(x, -0) ? 0 : x;
 }
 
+/**
+ * The camera's 6x6 covariance as written: symmetrised, tiny negative
+ * eigenvalues from round-off clipped (linalg/psd.ts). Anything else is a
+ * NumericalError 'rig.covariance_not_psd' naming the camera.
+ */
+export function writableCovariance(cam: CameraResult): Float64Array {
+  const r = symmetricPsd(cam.covariance, 6);
+  if (!r.ok) {
+    throw new NumericalError(
+      'rig.covariance_not_psd',
+      `the covariance of camera ${cam.name} is not symmetric positive semi-definite (${r.message}); no rig file was written → the solve is numerically unreliable: capture more views of ${cam.name} at varied distances and tilts, and check its intrinsics`,
+    );
+  }
+  return r.matrix;
+}
+
 export function rigCameraEntry(cam: CameraResult, rootName: string): RigCamera {
   const T = cam.T_ref_cam;
   const q = matrixToQuat(T.R);
   const rpy = matrixToRpy(T.R);
-  const P = positionCovariance(T.t, cam.covariance);
+  const cov = writableCovariance(cam);
+  const P = positionCovariance(T.t, cov);
   const nd = cam.model.numDistortion;
   const sqrt0 = (v: number) => Math.sqrt(Math.max(0, v));
   return {
@@ -53,8 +72,8 @@ export function rigCameraEntry(cam: CameraResult, rootName: string): RigCamera {
     quaternion_wxyz: [clean(q[0]!), clean(q[1]!), clean(q[2]!), clean(q[3]!)],
     rpy_deg: [clean(rpy[0]! * DEG), clean(rpy[1]! * DEG), clean(rpy[2]! * DEG)],
     sigma_translation_mm: [sqrt0(P[0]!) * 1000, sqrt0(P[4]!) * 1000, sqrt0(P[8]!) * 1000],
-    sigma_rotation_deg: [sqrt0(cam.covariance[0]!) * DEG, sqrt0(cam.covariance[7]!) * DEG, sqrt0(cam.covariance[14]!) * DEG],
-    covariance: Array.from(cam.covariance, clean),
+    sigma_rotation_deg: [sqrt0(cov[0]!) * DEG, sqrt0(cov[7]!) * DEG, sqrt0(cov[14]!) * DEG],
+    covariance: Array.from(cov, clean),
     model: cam.model.name,
     resolution: [0, 0],
     focal: [cam.intrinsics[0]!, cam.intrinsics[1]!],

@@ -49,6 +49,7 @@ import {
 import { poseFromBlock, poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
 import { groupViews, viewData, type View } from './views.js';
 import { fixedIntrinsicIndices, initialiseIntrinsics, intrinsicsWarnings } from './intrinsics.js';
+import { captureWarnings, poorlyConstrainedMessage } from './diagnostics.js';
 
 /** sqrt of the 99.9 % quantile of χ² with 2 degrees of freedom: sqrt(−2 ln 0.001). */
 export const OUTLIER_SIGMAS = Math.sqrt(-2 * Math.log(0.001));
@@ -427,6 +428,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   // Robust scale of the initial whitened errors (collected while building), for the loss scale.
   const sigmaHat = Math.sqrt(median(initialSquaredErrors) / (2 * Math.LN2));
   initialSquaredErrors.length = 0;
+  if (!Number.isFinite(sigmaHat)) {
+    throw new RigSolveError(
+      'rig.initialisation_failed',
+      'the initial poses do not reproduce the detections (median reprojection error is not finite) → capture views in which the target covers a larger part of the image, and check the intrinsics',
+    );
+  }
   if (o.loss !== 'none') {
     const a = o.lossScaleSigmas * Math.max(sigmaHat, 1e-6);
     built = build(o.loss === 'huber' ? huberLoss(a) : cauchyLoss(a));
@@ -463,11 +470,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     summary = runStage(round === 0 ? 'least squares' : `least squares (round ${round + 1})`, built);
   }
   const final = summary!;
+  warnings.push(...captureWarnings(session, views));
 
   // 6. Covariance of the camera extrinsics, frame poses marginalised (not needed when all are held fixed).
   const covResult = fixed ? undefined : computeCovariance(built.problem);
   if (covResult && !covResult.ok) {
-    throw new RigSolveError('rig.poorly_constrained', `the rig is poorly constrained: ${covResult.message}`);
+    throw new RigSolveError('rig.poorly_constrained', poorlyConstrainedMessage(covResult, session, views));
   }
   const cov = covResult?.ok ? covResult.covariance : undefined;
   let sigma0 = cov ? Math.sqrt(cov.sigma0Squared) : NaN;
