@@ -88,7 +88,7 @@ export function registerSolve(program: Command, ctx: CliContext): void {
             ctx.exitCode = EXIT_FAILED;
             return;
           }
-          if (!o.quiet) for (const line of detectionReportLines(det)) progress.log(line);
+          if (!o.quiet) for (const line of detectionReportLines(det)) ctx.err(line);
           session = sessionWithDetections(session, det);
         }
         progress.log(`loaded ${sessionPath}: ${session.cameras.length} cameras, ${session.frames.length} frames, ${session.detections.count} detections`);
