@@ -26,6 +26,7 @@ import type { DetectionTable, Session, TargetSpec } from '../io/types.js';
 import type { CheckerboardFailureReason } from './checkerboard.js';
 import { detectFiles, plannedWorkerCount, type DetectFilesOptions } from './workers.js';
 import type { DetectJob } from './job.js';
+import { emptyDetectionTable } from '../io/session.js';
 
 /** Placeholders an image pattern may use. */
 export const PATTERN_PLACEHOLDERS = ['camera', 'frame', 'target'] as const;
@@ -295,17 +296,7 @@ export function detectionsCsv(det: SessionDetection): string {
 /** The session with the detected corners as its detections (frames in natural order). */
 export function sessionWithDetections(session: Session, det: SessionDetection): Session {
   const count = det.views.reduce((s, v) => s + v.cornersPx.length / 2, 0);
-  const table: DetectionTable = {
-    count,
-    frame: new Int32Array(count),
-    camera: new Int32Array(count),
-    target: new Int32Array(count),
-    point: new Int32Array(count),
-    u: new Float64Array(count),
-    v: new Float64Array(count),
-    sigma: new Float64Array(count).fill(NaN),
-    line: new Int32Array(count),
-  };
+  const table: DetectionTable = emptyDetectionTable(count);
   const frames = [...new Set(det.views.map((v) => v.frame))];
   const frameIndex = new Map(frames.map((f, i) => [f, i]));
   const camIndex = new Map(session.cameras.map((c, i) => [c.name, i]));

@@ -195,17 +195,18 @@ export function loadSessionCollect(path: string, issues: IssueCollector, opts: S
 }
 
 /** A detection table with no rows. */
-export function emptyDetectionTable(): DetectionTable {
+export function emptyDetectionTable(count = 0): DetectionTable {
   return {
-    count: 0,
-    frame: new Int32Array(0),
-    camera: new Int32Array(0),
-    target: new Int32Array(0),
-    point: new Int32Array(0),
-    u: new Float64Array(0),
-    v: new Float64Array(0),
-    sigma: new Float64Array(0),
-    line: new Int32Array(0),
+    count,
+    frame: new Int32Array(count),
+    camera: new Int32Array(count),
+    target: new Int32Array(count),
+    point: new Int32Array(count),
+    u: new Float64Array(count),
+    v: new Float64Array(count),
+    // NaN: the camera's pixel_sigma applies.
+    sigma: new Float64Array(count).fill(NaN),
+    line: new Int32Array(count),
   };
 }
 

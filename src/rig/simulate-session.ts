@@ -4,6 +4,7 @@
  */
 import type { DetectionTable, Session } from '../io/types.js';
 import type { Simulation } from './simulate.js';
+import { emptyDetectionTable } from '../io/session.js';
 
 export function sessionFromSimulation(sim: Simulation, name = sim.description.name): Session {
   const d = sim.description;
@@ -12,17 +13,7 @@ export function sessionFromSimulation(sim: Simulation, name = sim.description.na
   const frames: string[] = [];
   const frameIndex = new Map<string, number>();
   const n = sim.detections.length;
-  const table: DetectionTable = {
-    count: n,
-    frame: new Int32Array(n),
-    camera: new Int32Array(n),
-    target: new Int32Array(n),
-    point: new Int32Array(n),
-    u: new Float64Array(n),
-    v: new Float64Array(n),
-    sigma: new Float64Array(n).fill(NaN),
-    line: new Int32Array(n),
-  };
+  const table: DetectionTable = emptyDetectionTable(n);
   sim.detections.forEach((r, i) => {
     let f = frameIndex.get(r.frame);
     if (f === undefined) {

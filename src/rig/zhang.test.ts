@@ -14,6 +14,7 @@ import type { DetectionTable, Session } from '../io/types.js';
 import { solveRig } from './solve.js';
 import { zhangIntrinsics } from './zhang.js';
 import { lmPresets } from '../solver/index.js';
+import { emptyDetectionTable } from '../io/session.js';
 
 interface Published {
   intrinsics: { alpha: number; gamma: number; beta: number; u0: number; v0: number };
@@ -35,17 +36,7 @@ function zhangSession(foldSkew: boolean): Session {
   const { gamma, beta, v0 } = pub.intrinsics;
   const n = pts.model.length;
   const count = n * pts.images.length;
-  const table: DetectionTable = {
-    count,
-    frame: new Int32Array(count),
-    camera: new Int32Array(count),
-    target: new Int32Array(count),
-    point: new Int32Array(count),
-    u: new Float64Array(count),
-    v: new Float64Array(count),
-    sigma: new Float64Array(count).fill(NaN),
-    line: new Int32Array(count),
-  };
+  const table: DetectionTable = emptyDetectionTable(count);
   pts.images.forEach((img, f) =>
     img.forEach(([u, v], i) => {
       const r = f * n + i;
