@@ -233,8 +233,14 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       }
     }
     checkConnected(session, views, mergeGroupsCoveredByPrior(tree.groups, reference, design), reference);
+    // Frames in which each camera shares a target with another camera (all edges, not just the tree's).
+    const linkFrames = names.map(() => new Set<number>());
+    for (const group of groupByFrameTarget(views, nt).values()) {
+      if (group.length < 2) continue;
+      for (const v of group) linkFrames[v.camera]!.add(v.frame);
+    }
     for (let c = 0; c < nc; c++) {
-      if (c !== reference && tree.support[c] === 1) {
+      if (c !== reference && tree.parent[c]! >= 0 && linkFrames[c]!.size === 1) {
         warnings.push(
           `camera ${names[c]} is linked to the rest of the rig by a single frame (through ${names[tree.parent[c]!]}): its extrinsic rests on one view; capture more frames in which ${names[c]} and a neighbouring camera see the target at once`,
         );
@@ -388,7 +394,11 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     });
     stages.push({ name, summary });
     if (summary.termination === 'failure') {
-      throw new RigSolveError('rig.solver_failed', `the joint solve failed in stage "${name}": ${summary.message}`);
+      throw new RigSolveError(
+        'rig.solver_failed',
+        `the joint solve failed in stage "${name}" (${summary.message}) → check the camera models and intrinsics in the session, ` +
+          'and that point ids follow the target (a wrong model or mislabelled detections can leave no step that lowers the error)',
+      );
     }
     return summary;
   };
