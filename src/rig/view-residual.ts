@@ -65,6 +65,18 @@ export interface ViewResidualSpec {
   loss?: LossFunction;
 }
 
+const SCRATCH = {
+  X: poseIdentity(),
+  L: poseIdentity(),
+  F: poseIdentity(),
+  tmp: poseIdentity(),
+  ad: new Float64Array(36),
+  uv: new Float64Array(2),
+  pc: new Float64Array(3),
+  Jp: new Float64Array(6),
+  Ji: new Float64Array(32),
+};
+
 export class ViewResidual implements ResidualBlock {
   readonly numResiduals: number;
   readonly parameterBlocks: readonly number[];
@@ -74,14 +86,16 @@ export class ViewResidual implements ResidualBlock {
   readonly lossGroupSize = 2;
   readonly spec: ViewResidualSpec;
   private readonly nIntr: number;
-  private readonly X: Pose = poseIdentity();
-  private readonly L: Pose = poseIdentity();
-  private readonly F: Pose = poseIdentity();
-  private readonly tmp: Pose = poseIdentity();
-  private readonly ad = new Float64Array(36);
-  private readonly uv = new Float64Array(2);
-  private readonly pc = new Float64Array(3);
-  private readonly Jp = new Float64Array(6);
+  // Scratch shared by every block (evaluate is not re-entrant), so that the
+  // thousands of blocks of a large problem allocate nothing per instance.
+  private readonly X: Pose = SCRATCH.X;
+  private readonly L: Pose = SCRATCH.L;
+  private readonly F: Pose = SCRATCH.F;
+  private readonly tmp: Pose = SCRATCH.tmp;
+  private readonly ad = SCRATCH.ad;
+  private readonly uv = SCRATCH.uv;
+  private readonly pc = SCRATCH.pc;
+  private readonly Jp = SCRATCH.Jp;
   private readonly Ji: Float64Array;
 
   constructor(spec: ViewResidualSpec) {
@@ -90,7 +104,9 @@ export class ViewResidual implements ResidualBlock {
     this.parameterBlocks = spec.parameterBlocks;
     this.nIntr = spec.intrinsicsParam >= 0 ? spec.model.numParams : 0;
     this.innerSize = 6 + this.nIntr;
-    this.Ji = new Float64Array(2 * Math.max(1, spec.model.numParams));
+    const jiSize = 2 * Math.max(1, spec.model.numParams);
+    if (SCRATCH.Ji.length < jiSize) SCRATCH.Ji = new Float64Array(jiSize);
+    this.Ji = SCRATCH.Ji;
     if (spec.loss) this.loss = spec.loss;
   }
 
