@@ -27,8 +27,12 @@ import { adjoint, compose, inverse, poseIdentity, type Pose } from '../geometry/
 
 /** A pose stored as 12 numbers: R row-major (9), then t (3). */
 export function poseFromBlock(x: Float64Array, out: Pose = poseIdentity()): Pose {
-  out.R.set(x.subarray(0, 9));
-  out.t.set(x.subarray(9, 12));
+  // Element copies: subarray() would allocate a view per call on the hot path.
+  const R = out.R;
+  for (let k = 0; k < 9; k++) R[k] = x[k]!;
+  out.t[0] = x[9]!;
+  out.t[1] = x[10]!;
+  out.t[2] = x[11]!;
   return out;
 }
 
@@ -135,8 +139,9 @@ export class ViewResidual implements ResidualBlock {
     const { model, points, pixels, invSigma, chain, intrinsicsParam } = this.spec;
     const intr = intrinsicsParam >= 0 ? params[intrinsicsParam]! : this.spec.intrinsics;
     const X = this.composePose(params, this.X);
-    const R = X.R;
-    const t = X.t;
+    // Pose entries in locals: stores into `jacobian` could alias them otherwise, forcing reloads per point.
+    const R0 = X.R[0]!, R1 = X.R[1]!, R2 = X.R[2]!, R3 = X.R[3]!, R4 = X.R[4]!, R5 = X.R[5]!, R6 = X.R[6]!, R7 = X.R[7]!, R8 = X.R[8]!;
+    const t0 = X.t[0]!, t1 = X.t[1]!, t2 = X.t[2]!;
     const n = points.length / 3;
     const inner = this.innerSize;
     const nIntr = this.nIntr;
@@ -146,9 +151,9 @@ export class ViewResidual implements ResidualBlock {
     const Ji = this.Ji;
     for (let i = 0; i < n; i++) {
       const Px = points[3 * i]!, Py = points[3 * i + 1]!, Pz = points[3 * i + 2]!;
-      const x = R[0]! * Px + R[1]! * Py + R[2]! * Pz + t[0]!;
-      const y = R[3]! * Px + R[4]! * Py + R[5]! * Pz + t[1]!;
-      const z = R[6]! * Px + R[7]! * Py + R[8]! * Pz + t[2]!;
+      const x = R0 * Px + R1 * Py + R2 * Pz + t0;
+      const y = R3 * Px + R4 * Py + R5 * Pz + t1;
+      const z = R6 * Px + R7 * Py + R8 * Pz + t2;
       pc[0] = x;
       pc[1] = y;
       pc[2] = z;
