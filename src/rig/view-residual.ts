@@ -86,7 +86,7 @@ export class ViewResidual implements ResidualBlock {
   readonly parameterBlocks: readonly number[];
   readonly innerSize: number;
   readonly mapped = true;
-  readonly loss?: LossFunction;
+  loss?: LossFunction;
   readonly lossGroupSize = 2;
   readonly spec: ViewResidualSpec;
   private readonly nIntr: number;
@@ -112,6 +112,11 @@ export class ViewResidual implements ResidualBlock {
     if (SCRATCH.Ji.length < jiSize) SCRATCH.Ji = new Float64Array(jiSize);
     this.Ji = SCRATCH.Ji;
     if (spec.loss) this.loss = spec.loss;
+  }
+
+  /** Sets the robust loss; the engine reads it at each evaluation. */
+  setLoss(loss: LossFunction): void {
+    this.loss = loss;
   }
 
   /** Number of detections in the view. */
