@@ -271,6 +271,7 @@ export class NormalEquations {
   /** Per eliminated block: global kept column of each stacked coupling column. */
   private readonly stackIndex: Int32Array[];
   private readonly rho = new Float64Array(3);
+  private readonly fusedCost = new Float64Array(1);
   private readonly mapViews: Float64Array[][];
   /** Per residual block: 1 when it is mapped, 6 inner columns and every non-constant position a 6-dim block (the pose fast path). */
   private readonly pose6: Uint8Array;
@@ -382,19 +383,24 @@ export class NormalEquations {
       const r = this.rViews[i]!;
       const J = this.jViews[i]!;
       const maps = rb.mapped ? this.mapViews[i]! : null;
-      if (!rb.evaluate(pr.residualParams(i), r, J, maps)) return { ok: false, residualBlock: i };
-      const m = rb.numResiduals;
       const p = rb.innerSize;
-      const gs = rb.lossGroupSize ?? m;
-      const loss = rb.loss;
-      if (loss) cost += weightGroups(r, J, m, p, gs, loss, rho);
+      const fused = rb.linearizeInner?.(pr.residualParams(i), A, bv, maps, rho, this.fusedCost);
+      if (fused === false) return { ok: false, residualBlock: i };
+      if (fused === true) cost += this.fusedCost[0]!;
       else {
-        let ss = 0;
-        for (let q = 0; q < m; q++) ss += r[q]! * r[q]!;
-        cost += 0.5 * ss;
+        if (!rb.evaluate(pr.residualParams(i), r, J, maps)) return { ok: false, residualBlock: i };
+        const m = rb.numResiduals;
+        const gs = rb.lossGroupSize ?? m;
+        const loss = rb.loss;
+        if (loss) cost += weightGroups(r, J, m, p, gs, loss, rho);
+        else {
+          let ss = 0;
+          for (let q = 0; q < m; q++) ss += r[q]! * r[q]!;
+          cost += 0.5 * ss;
+        }
+        if (p === 6) normal6(J, r, m, A, bv);
+        else normalGeneric(J, r, m, p, A, bv, this.JT);
       }
-      if (p === 6) normal6(J, r, m, A, bv);
-      else normalGeneric(J, r, m, p, A, bv, this.JT);
       if (this.pose6[i] === 1) this.scatterPose6(i, rb.parameterBlocks, maps!, nc);
       else this.scatter(i, rb.parameterBlocks, p, maps, nc);
     }
