@@ -16,7 +16,6 @@
  * null space of A of dimension > 1.
  */
 import { Matrix, SingularValueDecomposition } from 'ml-matrix';
-import { householderR } from '../linalg/small.js';
 
 export type HomographyFailure = 'too_few_points' | 'size_mismatch' | 'non_finite' | 'collinear' | 'degenerate';
 
@@ -97,18 +96,22 @@ export function estimateHomography(src: ArrayLike<number>, dst: ArrayLike<number
   }
   // With 4 pairs A is 8x9; a zero row makes it square so that the SVD returns all of V.
   const rows = Math.max(2 * n, 9);
-  const a = new Float64Array(rows * 9);
+  // A stored by columns (column c at c·rows), so that the Householder
+  // reflections below run over contiguous memory.
+  if (designScratch.length < rows * 9) designScratch = new Float64Array(rows * 9);
+  const a = designScratch;
+  a.fill(0, 0, rows * 9);
   for (let i = 0; i < n; i++) {
     const x = ns.pts[2 * i]!, y = ns.pts[2 * i + 1]!;
     const xp = nd.pts[2 * i]!, yp = nd.pts[2 * i + 1]!;
-    const r0 = 18 * i, r1 = r0 + 9;
-    a[r0 + 3] = -x; a[r0 + 4] = -y; a[r0 + 5] = -1;
-    a[r0 + 6] = yp * x; a[r0 + 7] = yp * y; a[r0 + 8] = yp;
-    a[r1] = x; a[r1 + 1] = y; a[r1 + 2] = 1;
-    a[r1 + 6] = -xp * x; a[r1 + 7] = -xp * y; a[r1 + 8] = -xp;
+    const r0 = 2 * i, r1 = r0 + 1;
+    a[3 * rows + r0] = -x; a[4 * rows + r0] = -y; a[5 * rows + r0] = -1;
+    a[6 * rows + r0] = yp * x; a[7 * rows + r0] = yp * y; a[8 * rows + r0] = yp;
+    a[r1] = x; a[rows + r1] = y; a[2 * rows + r1] = 1;
+    a[6 * rows + r1] = -xp * x; a[7 * rows + r1] = -xp * y; a[8 * rows + r1] = -xp;
   }
   // A's singular values and right singular vectors are those of its 9x9 triangular factor.
-  const R = householderR(a, rows, 9);
+  const R = householderRByColumns(a, rows, 9);
   const fast = nullVectorByInverseIteration(R);
   let Hn: Float64Array;
   let conditionRatio: number;
@@ -151,6 +154,46 @@ export function applyHomography(H: ArrayLike<number>, x: number, y: number, out:
   out[0] = (H[0]! * x + H[1]! * y + H[2]!) / w;
   out[1] = (H[3]! * x + H[4]! * y + H[5]!) / w;
   return out;
+}
+
+let designScratch = new Float64Array(0);
+
+/**
+ * Triangular factor R (n x n, row-major, upper) of the QR factorisation of
+ * the m x n matrix A given by columns (column j at A[j·m …], overwritten), by
+ * Householder reflections: the same arithmetic as linalg/small.ts
+ * householderR (RᵀR = AᵀA, no squaring of the condition number), with every
+ * inner loop over contiguous memory.
+ */
+function householderRByColumns(A: Float64Array, m: number, n: number): Float64Array {
+  for (let k = 0; k < n; k++) {
+    const ck = k * m;
+    let norm = 0;
+    for (let i = k; i < m; i++) norm += A[ck + i]! * A[ck + i]!;
+    norm = Math.sqrt(norm);
+    if (norm === 0) continue;
+    const alpha = A[ck + k]! > 0 ? -norm : norm;
+    // v = x − alpha e_k, stored in column k from row k on (v_k in place of A[k][k]).
+    const vk = A[ck + k]! - alpha;
+    A[ck + k] = vk;
+    let vnorm2 = vk * vk;
+    for (let i = k + 1; i < m; i++) vnorm2 += A[ck + i]! * A[ck + i]!;
+    if (vnorm2 === 0) {
+      A[ck + k] = alpha;
+      continue;
+    }
+    for (let j = k + 1; j < n; j++) {
+      const cj = j * m;
+      let dot = 0;
+      for (let i = k; i < m; i++) dot += A[ck + i]! * A[cj + i]!;
+      const f = (2 * dot) / vnorm2;
+      for (let i = k; i < m; i++) A[cj + i] = A[cj + i]! - f * A[ck + i]!;
+    }
+    A[ck + k] = alpha;
+  }
+  const R = new Float64Array(n * n);
+  for (let i = 0; i < n; i++) for (let j = i; j < n; j++) R[i * n + j] = A[j * m + i]!;
+  return R;
 }
 
 /**
