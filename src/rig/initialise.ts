@@ -41,9 +41,10 @@ export interface PnpOutcome {
   medianRmsPx: number;
 }
 
-function median(values: number[]): number {
+function median(values: ArrayLike<number>): number {
   if (values.length === 0) return NaN;
-  const s = [...values].sort((a, b) => a - b);
+  // Typed-array sort: numeric order without a comparator callback.
+  const s = Float64Array.from(values).sort();
   const m = s.length >> 1;
   return s.length % 2 ? s[m]! : 0.5 * (s[m - 1]! + s[m]!);
 }
@@ -112,7 +113,7 @@ export function initialiseViewPoses(
         fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
       }
       // residualsPx: per-point error norm, px.
-      const norms = Array.from(fit.residualsPx);
+      const norms = fit.residualsPx;
       const thr = Math.max(5 * median(norms), 2);
       const keep: number[] = [];
       for (let k = 0; k < norms.length; k++) if (norms[k]! <= thr) keep.push(view.rows[k]!);
