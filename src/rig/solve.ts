@@ -366,10 +366,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       if (!fv) continue;
       // Per-view data is rebuilt only when detections of the view were rejected since the last build.
       let data = viewCache.get(view);
+      const viewRows = view.rows;
       let rejectedNow = 0;
-      for (const r of view.rows) rejectedNow += rejectedRow[r]!;
+      for (let k = 0; k < viewRows.length; k++) rejectedNow += rejectedRow[viewRows[k]!]!;
       if (!data || data.rejected !== rejectedNow) {
-        const rows = Int32Array.from(Array.from(view.rows).filter((r) => !rejectedRow[r]));
+        const rows = new Int32Array(viewRows.length - rejectedNow);
+        for (let k = 0, at = 0; k < viewRows.length; k++) if (!rejectedRow[viewRows[k]!]) rows[at++] = viewRows[k]!;
         const { points, pixels } = viewData(session, view, rows);
         const w = new Float64Array(rows.length);
         for (let k = 0; k < rows.length; k++) w[k] = invSigma[rows[k]!]!;
