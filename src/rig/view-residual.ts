@@ -237,13 +237,16 @@ export class ViewResidual implements ResidualBlock {
       const ru = (uv[0]! - pixels[2 * i]!) * w;
       const rv = (uv[1]! - pixels[2 * i + 1]!) * w;
       const s = ru * ru + rv * rv;
+      // One code path with and without a loss (no branch that only one stage would reach).
+      let rhoS = s;
       let q = 1;
       if (loss) {
         loss.evaluate(s, rho);
-        cost += rho[0]!;
+        rhoS = rho[0]!;
         q = rho[1]! > 0 ? rho[1]! : 0;
-        if (q === 0) continue;
-      } else cost += s;
+      }
+      cost += rhoS;
+      if (q === 0) continue;
       for (let row = 0; row < 2; row++) {
         const c0 = Jp[3 * row]! * w, c1 = Jp[3 * row + 1]! * w, c2 = Jp[3 * row + 2]! * w;
         const e = row === 0 ? ru : rv;
