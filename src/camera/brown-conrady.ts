@@ -172,11 +172,15 @@ export function brownConradyUndistort(
     const d = radial + 2 * y * y * dR + 6 * p1 * y + 2 * p2 * x;
     const det = a * d - b * b;
     let accepted = false;
+    // Once the tolerance is met, only full Newton steps are tried: they reach
+    // rounding level in one or two more steps, and a failing one means we are there.
+    const converged = err <= ACCEPT_TOLERANCE * scale;
     if (det !== 0 && Number.isFinite(det)) {
       const sx = -(d * fx - b * fy) / det;
       const sy = -(a * fy - b * fx) / det;
       let t = 1;
-      for (let h = 0; h < MAX_HALVINGS; h++, t *= 0.5) {
+      const halvings = converged ? 1 : MAX_HALVINGS;
+      for (let h = 0; h < halvings; h++, t *= 0.5) {
         const nx = x + t * sx;
         const ny = y + t * sy;
         const nr2 = nx * nx + ny * ny;
@@ -202,7 +206,7 @@ export function brownConradyUndistort(
       // Newton made no progress: either we sit at rounding level (done) or
       // the local model is poor, where the fixed-point map still contracts
       // for moderate distortion.
-      if (err <= ACCEPT_TOLERANCE * scale) break;
+      if (converged) break;
       if (!(radial > 0)) return false;
       const nx = (xd - 2 * p1 * x * y - p2 * (r2 + 2 * x * x)) / radial;
       const ny = (yd - p1 * (r2 + 2 * y * y) - 2 * p2 * x * y) / radial;

@@ -104,12 +104,17 @@ export function act(T_a_b: Pose, p_b: ArrayLike<number>, out: Vec3 = new Float64
  * exp(δ) for δ = [ω, ρ]: R = exp([ω]×), t = J_l(ω) ρ (J_l the SO(3) left Jacobian).
  */
 export function se3Exp(delta: ArrayLike<number>, out: Pose = poseIdentity()): Pose {
-  const w = [delta[0]!, delta[1]!, delta[2]!];
-  so3Exp(w, out.R);
-  const V = so3LeftJacobian(w);
-  mat3MulVec(out.t, V, [delta[3]!, delta[4]!, delta[5]!]);
+  // so3Exp / so3LeftJacobian read only the first three entries (ω).
+  so3Exp(delta, out.R);
+  const V = so3LeftJacobian(delta, expScratchV);
+  const rx = delta[3]!, ry = delta[4]!, rz = delta[5]!;
+  out.t[0] = V[0]! * rx + V[1]! * ry + V[2]! * rz;
+  out.t[1] = V[3]! * rx + V[4]! * ry + V[5]! * rz;
+  out.t[2] = V[6]! * rx + V[7]! * ry + V[8]! * rz;
   return out;
 }
+
+const expScratchV = new Float64Array(9);
 
 /** log(T) = [ω, J_l(ω)⁻¹ t], the inverse of se3Exp. */
 export function se3Log(T: Pose, out: Float64Array = new Float64Array(6)): Float64Array {
@@ -130,8 +135,10 @@ export function se3Log(T: Pose, out: Float64Array = new Float64Array(6)): Float6
  * boxMinus(boxPlus(T, δ), T) = δ for |ω| < π.
  */
 export function boxPlus(T: Pose, delta: ArrayLike<number>, out: Pose = poseIdentity()): Pose {
-  return compose(se3Exp(delta), T, out);
+  return compose(se3Exp(delta, plusScratch), T, out);
 }
+
+const plusScratch: Pose = { R: new Float64Array(9), t: new Float64Array(3) };
 
 /** δ = log(T1 · T0⁻¹), so that boxPlus(T0, δ) = T1. */
 export function boxMinus(T1: Pose, T0: Pose, out: Float64Array = new Float64Array(6)): Float64Array {
@@ -164,6 +171,8 @@ export function adjoint(T: Pose, out: Float64Array = new Float64Array(36)): Floa
   return out;
 }
 
+const manifoldScratch: Pose = { R: new Float64Array(9), t: new Float64Array(3) };
+
 /**
  * A pose stored as 12 numbers [R row-major (9), t (3)] with the left update
  * x ⊞ δ = exp(δ)·x. Structurally matches the solver's Manifold interface.
@@ -172,10 +181,14 @@ export const se3LeftManifold = {
   ambientSize: 12,
   tangentSize: 6,
   plus(x: Float64Array, delta: Float64Array, out: Float64Array): void {
-    const T = poseFromArray12(x);
-    const r = boxPlus(T, delta);
-    out.set(r.R, 0);
-    out.set(r.t, 9);
+    // exp(δ)·x written straight into out (which may alias x), no allocation.
+    const E = se3Exp(delta, plusScratch);
+    const X = manifoldScratch;
+    X.R.set(x.subarray(0, 9));
+    X.t.set(x.subarray(9, 12));
+    compose(E, X, X);
+    out.set(X.R, 0);
+    out.set(X.t, 9);
   },
 } as const;
 

@@ -20,7 +20,6 @@
  */
 import type { CameraModel } from '../camera/model.js';
 import { compose, inverse, type Pose } from '../geometry/se3.js';
-import { EigenvalueDecomposition, Matrix } from 'ml-matrix';
 import { PnpError } from './errors.js';
 import { epnp } from './epnp.js';
 import { planarPose, PLANAR_MAX_ANGLE_RAD } from './planar.js';
@@ -95,8 +94,9 @@ export function solvePnP(
     throw new PnpError('pnp.too_few_points', `pose estimation needs at least 4 points, got ${n} → use a view in which more of the target is detected`);
   }
   for (let i = 0; i < n; i++) {
-    const vals = [points3d[3 * i]!, points3d[3 * i + 1]!, points3d[3 * i + 2]!, pixels[2 * i]!, pixels[2 * i + 1]!];
-    if (!vals.every(Number.isFinite)) {
+    const x = points3d[3 * i]!, y = points3d[3 * i + 1]!, z = points3d[3 * i + 2]!, u = pixels[2 * i]!, v = pixels[2 * i + 1]!;
+    if (!(Number.isFinite(x) && Number.isFinite(y) && Number.isFinite(z) && Number.isFinite(u) && Number.isFinite(v))) {
+      const vals = [x, y, z, u, v];
       throw new PnpError('pnp.non_finite', `point ${i} has a non-finite value (xyz ${vals.slice(0, 3).join(', ')}; uv ${vals.slice(3).join(', ')}) → remove it or fix the detection`);
     }
   }
@@ -106,27 +106,40 @@ export function solvePnP(
 
   const bearings = new Float64Array(3 * n);
   const ray = new Float64Array(3);
+  const uv = new Float64Array(2);
   const failed: number[] = [];
   for (let i = 0; i < n; i++) {
-    if (!model.unproject(params, [pixels[2 * i]!, pixels[2 * i + 1]!], ray) || !ray.every(Number.isFinite)) failed.push(i);
-    else bearings.set(ray, 3 * i);
+    uv[0] = pixels[2 * i]!;
+    uv[1] = pixels[2 * i + 1]!;
+    if (!model.unproject(params, uv, ray) || !(Number.isFinite(ray[0]!) && Number.isFinite(ray[1]!) && Number.isFinite(ray[2]!))) failed.push(i);
+    else {
+      bearings[3 * i] = ray[0]!;
+      bearings[3 * i + 1] = ray[1]!;
+      bearings[3 * i + 2] = ray[2]!;
+    }
   }
   if (failed.length > 0) {
     const list = failed.slice(0, 5).map((i) => `${i} (${pixels[2 * i]}, ${pixels[2 * i + 1]})`).join(', ');
     throw new PnpError('pnp.unprojectable', `${failed.length} pixel(s) lie outside the valid region of the ${model.name} model: point ${list}${failed.length > 5 ? ', …' : ''} → check the intrinsics or drop these detections`);
   }
 
-  // Shape of the point set.
+  // Shape of the point set: eigen-decomposition of the centred scatter matrix.
   const c = [0, 0, 0];
   for (let i = 0; i < n; i++) for (let d = 0; d < 3; d++) c[d]! += points3d[3 * i + d]! / n;
-  const S = new Matrix(3, 3);
+  const S = new Float64Array(9);
   for (let i = 0; i < n; i++) {
-    const q = [points3d[3 * i]! - c[0]!, points3d[3 * i + 1]! - c[1]!, points3d[3 * i + 2]! - c[2]!];
-    for (let a = 0; a < 3; a++) for (let b = 0; b < 3; b++) S.set(a, b, S.get(a, b) + q[a]! * q[b]!);
+    const q0 = points3d[3 * i]! - c[0]!, q1 = points3d[3 * i + 1]! - c[1]!, q2 = points3d[3 * i + 2]! - c[2]!;
+    S[0]! += q0 * q0; S[1]! += q0 * q1; S[2]! += q0 * q2;
+    S[4]! += q1 * q1; S[5]! += q1 * q2;
+    S[8]! += q2 * q2;
   }
-  const eig = new EigenvalueDecomposition(S, { assumeSymmetric: true });
-  const order = [0, 1, 2].sort((a, b) => eig.realEigenvalues[b]! - eig.realEigenvalues[a]!);
-  const sig = order.map((i) => Math.sqrt(Math.max(eig.realEigenvalues[i]!, 0)));
+  S[3] = S[1]!;
+  S[6] = S[2]!;
+  S[7] = S[5]!;
+  const eigVectors = new Float64Array(9);
+  const eigValues = symmetricEigen3(S, eigVectors);
+  const order = [0, 1, 2].sort((a, b) => eigValues[b]! - eigValues[a]!);
+  const sig = order.map((i) => Math.sqrt(Math.max(eigValues[i]!, 0)));
   if (!(sig[0]! > 0) || sig[1]! < collinearRatio * sig[0]!) {
     throw new PnpError('pnp.collinear', `the ${n} target points are collinear (σ2/σ1 = ${(sig[0]! > 0 ? sig[1]! / sig[0]! : 0).toExponential(2)}); the rotation about their line cannot be determined → use points that span a plane or a volume`);
   }
@@ -136,7 +149,7 @@ export function solvePnP(
   const failures: { reason: string; message: string }[] = [];
   if (ratio3 < planarRatio) {
     // Plane frame P: origin at the centroid, axes the principal directions (right-handed).
-    const e = order.map((i) => [0, 1, 2].map((d) => eig.eigenvectorMatrix.get(d, i)));
+    const e = order.map((i) => [0, 1, 2].map((d) => eigVectors[d * 3 + i]!));
     const e1 = e[0]!, e2 = e[1]!;
     const e3 = [e1[1]! * e2[2]! - e1[2]! * e2[1]!, e1[2]! * e2[0]! - e1[0]! * e2[2]!, e1[0]! * e2[1]! - e1[1]! * e2[0]!];
     const T_target_plane: Pose = {
@@ -218,4 +231,56 @@ function inFront(T: Pose, points3d: ArrayLike<number>, bearings: Float64Array, n
     if (!(q0 * bearings[3 * i]! + q1 * bearings[3 * i + 1]! + q2 * bearings[3 * i + 2]! > 0)) return false;
   }
   return true;
+}
+
+/**
+ * Eigen-decomposition of a symmetric 3x3 matrix (row-major) by cyclic Jacobi
+ * rotations (Golub & Van Loan, Matrix Computations, §8.5). Returns the
+ * eigenvalues (unordered); V receives the eigenvectors as columns, row-major.
+ */
+function symmetricEigen3(S: ArrayLike<number>, V: Float64Array): Float64Array {
+  const A = Float64Array.from(S);
+  V.fill(0);
+  V[0] = 1;
+  V[4] = 1;
+  V[8] = 1;
+  for (let sweep = 0; sweep < 50; sweep++) {
+    const off = A[1]! * A[1]! + A[2]! * A[2]! + A[5]! * A[5]!;
+    const diag = A[0]! * A[0]! + A[4]! * A[4]! + A[8]! * A[8]!;
+    if (!(off > 1e-36 * diag)) break;
+    for (let p = 0; p < 2; p++) {
+      for (let q = p + 1; q < 3; q++) {
+        const apq = A[p * 3 + q]!;
+        if (apq === 0) continue;
+        const app = A[p * 4]!;
+        const aqq = A[q * 4]!;
+        const theta = (aqq - app) / (2 * apq);
+        const t = (theta >= 0 ? 1 : -1) / (Math.abs(theta) + Math.sqrt(theta * theta + 1));
+        const cs = 1 / Math.sqrt(t * t + 1);
+        const sn = t * cs;
+        // A ← Jᵀ A J with J the rotation in the (p, q) plane.
+        for (let k = 0; k < 3; k++) {
+          const akp = A[k * 3 + p]!;
+          const akq = A[k * 3 + q]!;
+          A[k * 3 + p] = cs * akp - sn * akq;
+          A[k * 3 + q] = sn * akp + cs * akq;
+        }
+        for (let k = 0; k < 3; k++) {
+          const apk = A[p * 3 + k]!;
+          const aqk = A[q * 3 + k]!;
+          A[p * 3 + k] = cs * apk - sn * aqk;
+          A[q * 3 + k] = sn * apk + cs * aqk;
+        }
+        A[p * 3 + q] = 0;
+        A[q * 3 + p] = 0;
+        for (let k = 0; k < 3; k++) {
+          const vkp = V[k * 3 + p]!;
+          const vkq = V[k * 3 + q]!;
+          V[k * 3 + p] = cs * vkp - sn * vkq;
+          V[k * 3 + q] = sn * vkp + cs * vkq;
+        }
+      }
+    }
+  }
+  return Float64Array.of(A[0]!, A[4]!, A[8]!);
 }

@@ -22,7 +22,7 @@ import { compose, inverse, type Pose } from '../geometry/se3.js';
 import { so3Angle } from '../geometry/so3.js';
 import { mat3Mul, mat3Transpose } from '../linalg/small.js';
 import type { Session } from '../io/types.js';
-import { solvePnP } from '../pnp/index.js';
+import { PnpError, solvePnP, type PnpResult } from '../pnp/index.js';
 import { averagePosesRobust } from './average.js';
 import { viewData, type View } from './views.js';
 
@@ -41,9 +41,10 @@ export interface PnpOutcome {
   medianRmsPx: number;
 }
 
-function median(values: number[]): number {
+function median(values: ArrayLike<number>): number {
   if (values.length === 0) return NaN;
-  const s = [...values].sort((a, b) => a - b);
+  // Typed-array sort: numeric order without a comparator callback.
+  const s = Float64Array.from(values).sort();
   const m = s.length >> 1;
   return s.length % 2 ? s[m]! : 0.5 * (s[m - 1]! + s[m]!);
 }
@@ -80,23 +81,39 @@ export function initialiseViewPoses(
     const model = models[view.camera]!;
     const intr = params[view.camera]!;
     // Pixels the camera model cannot unproject (beyond the lens model's valid
-    // region: usually gross detections) are dropped from the view.
-    const d = session.detections;
-    const ray = new Float64Array(3);
-    const valid = Array.from(view.rows).filter((r) => model.unproject(intr, [d.u[r]!, d.v[r]!], ray));
-    if (valid.length < view.rows.length) {
+    // region: usually gross detections) are dropped from the view. PnP
+    // unprojects every pixel itself, so the filter runs only after it reports one.
+    const dropUnprojectable = (): boolean => {
+      const d = session.detections;
+      const ray = new Float64Array(3);
+      const uv = new Float64Array(2);
+      const valid = Array.from(view.rows).filter((r) => {
+        uv[0] = d.u[r]!;
+        uv[1] = d.v[r]!;
+        return model.unproject(intr, uv, ray);
+      });
+      if (valid.length === view.rows.length) return true;
       if (valid.length < MIN_VIEW_POINTS) {
         view.status = 'pnp_failed';
         view.reason = `${view.rows.length - valid.length} of ${view.rows.length} pixels lie outside the valid region of the ${model.name} model of camera ${camName}`;
-        continue;
+        return false;
       }
       view.rows = Int32Array.from(valid);
-    }
+      return true;
+    };
     try {
-      const { points, pixels } = viewData(session, view);
-      let fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
+      let fit: PnpResult;
+      try {
+        const { points, pixels } = viewData(session, view);
+        fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
+      } catch (e) {
+        if (!(e instanceof PnpError && e.code === 'pnp.unprojectable')) throw e;
+        if (!dropUnprojectable()) continue;
+        const { points, pixels } = viewData(session, view);
+        fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
+      }
       // residualsPx: per-point error norm, px.
-      const norms = Array.from(fit.residualsPx);
+      const norms = fit.residualsPx;
       const thr = Math.max(5 * median(norms), 2);
       const keep: number[] = [];
       for (let k = 0; k < norms.length; k++) if (norms[k]! <= thr) keep.push(view.rows[k]!);

@@ -51,6 +51,17 @@ import { groupViews, viewData, type View } from './views.js';
 import { fixedIntrinsicIndices, initialiseIntrinsics, intrinsicsWarnings } from './intrinsics.js';
 import { captureWarnings, poorlyConstrainedMessage } from './diagnostics.js';
 
+/**
+ * LM settings of the robust stage (o.lm overrides them). That stage only has
+ * to bring the residuals close enough to their final values for the outlier
+ * test (a threshold of 3.7 robust sigmas) and to start the least-squares
+ * stage, which keeps the engine's tight default tolerances and refines
+ * everything again. A relative cost decrease below 1e-4 per step (e.g. 15 in
+ * a cost of 1.5e5, i.e. parameter changes far below their 1-sigma
+ * uncertainty) is therefore enough there.
+ */
+export const ROBUST_STAGE_LM: Partial<LmOptions> = Object.freeze({ functionTolerance: 1e-4 });
+
 /** sqrt of the 99.9 % quantile of χ² with 2 degrees of freedom: sqrt(−2 ln 0.001). */
 export const OUTLIER_SIGMAS = Math.sqrt(-2 * Math.log(0.001));
 
@@ -162,10 +173,51 @@ export interface RigSolution {
 }
 
 function median(a: Float64Array | number[]): number {
-  const s = Float64Array.from(a).sort();
-  if (s.length === 0) return NaN;
-  const m = s.length >> 1;
-  return s.length % 2 ? s[m]! : 0.5 * (s[m - 1]! + s[m]!);
+  const s = new Float64Array(a);
+  const n = s.length;
+  if (n === 0) return NaN;
+  const m = n >> 1;
+  for (let i = 0; i < n; i++) {
+    if (Number.isNaN(s[i]!)) {
+      s.sort();
+      return n % 2 ? s[m]! : 0.5 * (s[m - 1]! + s[m]!);
+    }
+  }
+  // Selection (Hoare's quickselect) instead of a full sort: s[m] is the m-th smallest, s[0..m) ≤ s[m].
+  const hi = selectKth(s, m);
+  if (n % 2) return hi;
+  let lo = -Infinity;
+  for (let i = 0; i < m; i++) if (s[i]! > lo) lo = s[i]!;
+  return 0.5 * (lo + hi);
+}
+
+/** Rearranges s so that s[k] is its k-th smallest value (0-based), smaller values before it; returns s[k]. */
+function selectKth(s: Float64Array, k: number): number {
+  let left = 0;
+  let right = s.length - 1;
+  while (right > left) {
+    // Median of three as the pivot.
+    const mid = (left + right) >> 1;
+    const a = s[left]!, b = s[mid]!, c = s[right]!;
+    const pivot = a < b ? (b < c ? b : a < c ? c : a) : a < c ? a : b < c ? c : b;
+    let i = left;
+    let j = right;
+    while (i <= j) {
+      while (s[i]! < pivot) i++;
+      while (s[j]! > pivot) j--;
+      if (i <= j) {
+        const t = s[i]!;
+        s[i] = s[j]!;
+        s[j] = t;
+        i++;
+        j--;
+      }
+    }
+    if (k <= j) right = j;
+    else if (k >= i) left = i;
+    else break;
+  }
+  return s[k]!;
 }
 
 interface BuiltProblem {
@@ -321,10 +373,12 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       if (!fv) continue;
       // Per-view data is rebuilt only when detections of the view were rejected since the last build.
       let data = viewCache.get(view);
+      const viewRows = view.rows;
       let rejectedNow = 0;
-      for (const r of view.rows) rejectedNow += rejectedRow[r]!;
+      for (let k = 0; k < viewRows.length; k++) rejectedNow += rejectedRow[viewRows[k]!]!;
       if (!data || data.rejected !== rejectedNow) {
-        const rows = Int32Array.from(Array.from(view.rows).filter((r) => !rejectedRow[r]));
+        const rows = new Int32Array(viewRows.length - rejectedNow);
+        for (let k = 0, at = 0; k < viewRows.length; k++) if (!rejectedRow[viewRows[k]!]) rows[at++] = viewRows[k]!;
         const { points, pixels } = viewData(session, view, rows);
         const w = new Float64Array(rows.length);
         for (let k = 0; k < rows.length; k++) w[k] = invSigma[rows[k]!]!;
@@ -387,8 +441,9 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   };
 
   const stages: { name: string; summary: SolveSummary }[] = [];
-  const runStage = (name: string, built: BuiltProblem): SolveSummary => {
+  const runStage = (name: string, built: BuiltProblem, stageLm: Partial<LmOptions> = {}): SolveSummary => {
     const summary = solve(built.problem, {
+      ...stageLm,
       ...o.lm,
       ...(o.onIteration ? { onIteration: (r: IterationRecord) => o.onIteration!(name, r) } : {}),
     });
@@ -418,8 +473,11 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     return out;
   };
   const robustSigma = (norms: { e: Float64Array }[]): number => {
-    const all: number[] = [];
-    for (const n of norms) for (const x of n.e) all.push(x * x);
+    let total = 0;
+    for (const n of norms) total += n.e.length;
+    const all = new Float64Array(total);
+    let at = 0;
+    for (const n of norms) for (let k = 0; k < n.e.length; k++) all[at++] = n.e[k]! * n.e[k]!;
     return Math.sqrt(median(all) / (2 * Math.LN2));
   };
   /** Fixed extrinsics: σ̂ per camera (see RigSolveOptions.fixedExtrinsics); otherwise one σ̂ for all. */
@@ -446,8 +504,10 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   }
   if (o.loss !== 'none') {
     const a = o.lossScaleSigmas * Math.max(sigmaHat, 1e-6);
-    built = build(o.loss === 'huber' ? huberLoss(a) : cauchyLoss(a));
-    runStage(`robust (${o.loss})`, built);
+    // The problem just built is reused with the loss set on its view blocks (the engine reads it at evaluation).
+    const loss = o.loss === 'huber' ? huberLoss(a) : cauchyLoss(a);
+    for (const block of built.blocks) block.setLoss(loss);
+    runStage(`robust (${o.loss})`, built, ROBUST_STAGE_LM);
   }
   let summary: SolveSummary | undefined;
   for (let round = 0; round <= o.maxRejectionRounds; round++) {

@@ -7,6 +7,7 @@ import { cameraModel } from '../camera/registry.js';
 import { compose, se3Exp, poseToArray12, se3LeftManifold, type Pose } from '../geometry/se3.js';
 import { expectMatrixClose, gaussian, numericJacobian, rng } from '../testing/numeric.js';
 import { ViewResidual, type ChainFactor } from './view-residual.js';
+import { cauchyLoss, huberLoss } from '../solver/loss.js';
 
 const u = rng(17);
 const pose = (rot: number, trans: number, t0: number[] = [0, 0, 0]): Pose => {
@@ -130,5 +131,87 @@ describe('ViewResidual Jacobian', () => {
       }
       expectMatrixClose(A, N, { rel: 1e-6 }, `J_r_block${k}`);
     });
+  });
+});
+
+describe('ViewResidual fused linearisation', () => {
+  // linearizeInner must give the engine exactly what evaluate() + IRLS weighting
+  // (loss.ts: r̃ = √ρ′ r, J̃ = √ρ′ J) + A = J̃ᵀJ̃, b = J̃ᵀr̃ would.
+  test.each([
+    ['no loss', undefined],
+    ['huber', huberLoss(0.8)],
+    ['cauchy', cauchyLoss(0.5)],
+  ] as const)('matches evaluate() with the loss weighting: %s', (_name, loss) => {
+    const model = cameraModel('brown-conrady');
+    const T_ref_cam = pose(0.2, 0.1);
+    const ahead = pose(0.2, 0.05, [-0.2, -0.1, 1.5]);
+    const params = [poseToArray12(T_ref_cam), poseToArray12(compose(T_ref_cam, ahead))];
+    const nPts = 9;
+    const points = Float64Array.from({ length: 3 * nPts }, (_, i) => (i % 3 === 2 ? 0.05 * gaussian(u) : 0.3 * gaussian(u)));
+    const pixels = Float64Array.from({ length: 2 * nPts }, () => 300 + 50 * gaussian(u));
+    const invSigma = Float64Array.from({ length: nPts }, () => 1 / (0.5 + u()));
+    const block = new ViewResidual({
+      model,
+      parameterBlocks: [0, 1],
+      chain: [
+        { param: 0, sign: -1 },
+        { param: 1, sign: 1 },
+      ],
+      intrinsicsParam: -1,
+      intrinsics: Float64Array.of(600, 610, 320, 240, -0.2, 0.05, 0.001, -0.001, 0.01),
+      points,
+      pixels,
+      invSigma,
+      ...(loss ? { loss } : {}),
+    });
+    const m = block.numResiduals;
+    const r = new Float64Array(m);
+    const J = new Float64Array(m * 6);
+    const maps = [new Float64Array(36), new Float64Array(36)];
+    expect(block.evaluate(params, r, J, maps)).toBe(true);
+    const Aref = new Float64Array(36);
+    const bref = new Float64Array(6);
+    let cost = 0;
+    const rho = new Float64Array(3);
+    for (let g = 0; g < nPts; g++) {
+      const s = r[2 * g]! ** 2 + r[2 * g + 1]! ** 2;
+      let wgt = 1;
+      if (loss) {
+        loss.evaluate(s, rho);
+        cost += rho[0]!;
+        wgt = Math.max(rho[1]!, 0);
+      } else cost += s;
+      for (let q = 2 * g; q < 2 * g + 2; q++) {
+        for (let a = 0; a < 6; a++) {
+          bref[a]! += wgt * J[q * 6 + a]! * r[q]!;
+          for (let c = 0; c < 6; c++) Aref[a * 6 + c]! += wgt * J[q * 6 + a]! * J[q * 6 + c]!;
+        }
+      }
+    }
+    const A = new Float64Array(36);
+    const b = new Float64Array(6);
+    const out = new Float64Array(1);
+    const fusedMaps = [new Float64Array(36), new Float64Array(36)];
+    expect(block.linearizeInner(params, A, b, fusedMaps, new Float64Array(3), out)).toBe(true);
+    expectMatrixClose(A, Aref, { rel: 1e-12 }, 'A');
+    expectMatrixClose(b, bref, { rel: 1e-12 }, 'b');
+    expect(out[0]).toBeCloseTo(0.5 * cost, 10);
+    expectMatrixClose(fusedMaps[0]!, maps[0]!, { rel: 0 }, 'M_cam');
+    expectMatrixClose(fusedMaps[1]!, maps[1]!, { rel: 0 }, 'M_target');
+  });
+
+  test('defers to evaluate() when the intrinsics are free', () => {
+    const block = new ViewResidual({
+      model: cameraModel('pinhole'),
+      parameterBlocks: [0, 1],
+      chain: [{ param: 0, sign: 1 }],
+      intrinsicsParam: 1,
+      intrinsics: Float64Array.of(500, 500, 320, 240),
+      points: Float64Array.of(0, 0, 1, 0.1, 0, 1, 0, 0.1, 1),
+      pixels: Float64Array.of(320, 240, 370, 240, 320, 290),
+      invSigma: Float64Array.of(1, 1, 1),
+    });
+    const params = [poseToArray12(pose(0, 0)), Float64Array.of(500, 500, 320, 240)];
+    expect(block.linearizeInner(params, new Float64Array(100), new Float64Array(10), null, new Float64Array(3), new Float64Array(1))).toBeUndefined();
   });
 });

@@ -274,7 +274,12 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
     }
   }
 
-  const ne = new NormalEquations(problem);
+  // Two sets of normal equations: the trial point is linearised into `spare`
+  // directly (residuals, cost and Jacobians in one pass over the data), and an
+  // accepted step swaps the two, so no point is evaluated twice. A rejected
+  // step (rare in bundle adjustment) leaves `ne` untouched.
+  let ne = new NormalEquations(problem);
+  let spare: NormalEquations | undefined;
   const N = L.numTangent;
   const delta = new Float64Array(N);
   const D = new Float64Array(N);
@@ -372,8 +377,9 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
       saved[j]!.set(b.values);
       b.manifold.plus(saved[j]!, deltaViews[j]!, b.values);
     });
-    const ev = ne.evaluateCost();
-    const newCost = ev.ok ? ne.cost : NaN;
+    spare ??= new NormalEquations(problem);
+    const ev = spare.linearize();
+    const newCost = ev.ok ? spare.cost : NaN;
     const actual = cost - newCost;
     record.costChange = actual;
     const rho = model > 0 ? actual / model : actual > 0 ? 1 : -1;
@@ -386,11 +392,8 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
       record.accepted = true;
       lambda = Math.max(o.minLambda, lambda * Math.max(o.lambdaDownMinFactor, 1 - Math.pow(2 * rho - 1, 3)));
       nu = o.lambdaUpFactor;
-      const relin = ne.linearize();
+      [ne, spare] = [spare, ne];
       emit();
-      if (!relin.ok) {
-        return finish('failure', `residual block #${relin.residualBlock} evaluated its residuals but not its Jacobian at an accepted point`, cost);
-      }
       gmax = maxAbs(ne.g);
       if (Math.abs(actual) < o.functionTolerance * oldCost) {
         return finish(
@@ -404,7 +407,6 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
       }
     } else {
       movable.forEach((id, j) => problem.parameterBlock(id).values.set(saved[j]!));
-      ne.cost = cost;
       const stop = reject();
       if (stop) return stop;
     }

@@ -78,4 +78,22 @@ export interface ResidualBlock {
     jacobian: Float64Array | null,
     maps: Float64Array[] | null,
   ): boolean;
+  /**
+   * Optional fused linearisation, for blocks with many residuals: the same
+   * numbers as evaluate() with a Jacobian followed by the engine's loss
+   * weighting (IRLS, loss.ts) and normal products, without storing J:
+   *   A = Σ_g ρ′_g J_gᵀJ_g (innerSize², row-major, full),  b = Σ_g ρ′_g J_gᵀ r_g,
+   *   out[0] = ½ Σ_g ρ(‖r_g‖²)  (ρ(s) = s, ρ′ = 1 without a loss; a group with ρ′ ≤ 0 adds nothing),
+   * and maps as in evaluate(). `rho` is scratch of length ≥ 3 for loss.evaluate.
+   * Returns false when evaluate() would, or undefined when the block cannot
+   * take this path for its current configuration (the engine then uses evaluate()).
+   */
+  linearizeInner?(
+    params: readonly Float64Array[],
+    A: Float64Array,
+    b: Float64Array,
+    maps: Float64Array[] | null,
+    rho: Float64Array,
+    out: Float64Array,
+  ): boolean | undefined;
 }

@@ -211,6 +211,34 @@ function schurSubtract(X: Float64Array, Y: Float64Array, P: Float64Array, S: Flo
   }
 }
 
+/** T = A M for 6x6 row-major A, M. */
+function mul66(A: Float64Array, M: Float64Array, T: Float64Array): void {
+  for (let a = 0; a < 6; a++) {
+    const a0 = A[a * 6]!, a1 = A[a * 6 + 1]!, a2 = A[a * 6 + 2]!, a3 = A[a * 6 + 3]!, a4 = A[a * 6 + 4]!, a5 = A[a * 6 + 5]!;
+    for (let v = 0; v < 6; v++) {
+      T[a * 6 + v] = a0 * M[v]! + a1 * M[6 + v]! + a2 * M[12 + v]! + a3 * M[18 + v]! + a4 * M[24 + v]! + a5 * M[30 + v]!;
+    }
+  }
+}
+
+/** B = Mᵀ T for 6x6 row-major M, T. */
+function mulT66(M: Float64Array, T: Float64Array, B: Float64Array): void {
+  for (let u = 0; u < 6; u++) {
+    const m0 = M[u]!, m1 = M[6 + u]!, m2 = M[12 + u]!, m3 = M[18 + u]!, m4 = M[24 + u]!, m5 = M[30 + u]!;
+    for (let v = 0; v < 6; v++) {
+      B[u * 6 + v] = m0 * T[v]! + m1 * T[6 + v]! + m2 * T[12 + v]! + m3 * T[18 + v]! + m4 * T[24 + v]! + m5 * T[30 + v]!;
+    }
+  }
+}
+
+/** dest[off + u·stride + v] += s·B[u·6 + v] for a 6x6 B. */
+function addScaled66(B: Float64Array, s: number, dest: Float64Array, off: number, stride: number): void {
+  for (let u = 0; u < 6; u++) {
+    const rowD = off + u * stride;
+    for (let v = 0; v < 6; v++) dest[rowD + v] = dest[rowD + v]! + s * B[u * 6 + v]!;
+  }
+}
+
 export class NormalEquations {
   readonly layout: ProblemLayout;
   /** ½ Σ ρ at the last linearize()/evaluateCost(). */
@@ -234,6 +262,7 @@ export class NormalEquations {
   private readonly Tl: Float64Array[];
   private readonly JT: Float64Array;
   private readonly B: Float64Array;
+  private readonly B2 = new Float64Array(36);
   private readonly gk: Float64Array;
   private readonly z: Float64Array;
   private readonly Y: Float64Array;
@@ -242,7 +271,12 @@ export class NormalEquations {
   /** Per eliminated block: global kept column of each stacked coupling column. */
   private readonly stackIndex: Int32Array[];
   private readonly rho = new Float64Array(3);
+  private readonly fusedCost = new Float64Array(1);
   private readonly mapViews: Float64Array[][];
+  /** Per residual block: 1 when it is mapped, 6 inner columns and every non-constant position a 6-dim block (the pose fast path). */
+  private readonly pose6: Uint8Array;
+  /** Per position of the current block: +1 / −1 when its map equals ± the reference position's map, else 0 (pose fast path). */
+  private readonly mapSign = new Int8Array(64);
   private readonly rViews: Float64Array[];
   private readonly jViews: Float64Array[];
 
@@ -285,6 +319,16 @@ export class NormalEquations {
     for (let i = 0; i < problem.numResidualBlocks; i++) maxArity = Math.max(maxArity, problem.residualBlock(i).parameterBlocks.length);
     const mapScratch = Array.from({ length: maxArity }, () => new Float64Array(p * t));
     this.Tl = Array.from({ length: maxArity }, () => new Float64Array(p * t));
+    this.pose6 = new Uint8Array(problem.numResidualBlocks);
+    for (let i = 0; i < problem.numResidualBlocks; i++) {
+      const rb = problem.residualBlock(i);
+      if (!rb.mapped || rb.innerSize !== 6 || rb.parameterBlocks.length > 64) continue;
+      let ok = true;
+      rb.parameterBlocks.forEach((pb, k) => {
+        if (L.posKind[i]![k] !== POS_CONSTANT && problem.parameterBlock(pb).tangentSize !== 6) ok = false;
+      });
+      this.pose6[i] = ok ? 1 : 0;
+    }
     this.mapViews = [];
     this.rViews = [];
     this.jViews = [];
@@ -339,25 +383,122 @@ export class NormalEquations {
       const r = this.rViews[i]!;
       const J = this.jViews[i]!;
       const maps = rb.mapped ? this.mapViews[i]! : null;
-      if (!rb.evaluate(pr.residualParams(i), r, J, maps)) return { ok: false, residualBlock: i };
-      const m = rb.numResiduals;
       const p = rb.innerSize;
-      const gs = rb.lossGroupSize ?? m;
-      const loss = rb.loss;
-      if (loss) cost += weightGroups(r, J, m, p, gs, loss, rho);
+      const fused = rb.linearizeInner?.(pr.residualParams(i), A, bv, maps, rho, this.fusedCost);
+      if (fused === false) return { ok: false, residualBlock: i };
+      if (fused === true) cost += this.fusedCost[0]!;
       else {
-        let ss = 0;
-        for (let q = 0; q < m; q++) ss += r[q]! * r[q]!;
-        cost += 0.5 * ss;
+        if (!rb.evaluate(pr.residualParams(i), r, J, maps)) return { ok: false, residualBlock: i };
+        const m = rb.numResiduals;
+        const gs = rb.lossGroupSize ?? m;
+        const loss = rb.loss;
+        if (loss) cost += weightGroups(r, J, m, p, gs, loss, rho);
+        else {
+          let ss = 0;
+          for (let q = 0; q < m; q++) ss += r[q]! * r[q]!;
+          cost += 0.5 * ss;
+        }
+        if (p === 6) normal6(J, r, m, A, bv);
+        else normalGeneric(J, r, m, p, A, bv, this.JT);
       }
-      if (p === 6) normal6(J, r, m, A, bv);
-      else normalGeneric(J, r, m, p, A, bv, this.JT);
-      this.scatter(i, rb.parameterBlocks, p, maps, nc);
+      if (this.pose6[i] === 1) this.scatterPose6(i, rb.parameterBlocks, maps!, nc);
+      else this.scatter(i, rb.parameterBlocks, p, maps, nc);
     }
     if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
     this.cost = cost;
     this.applyFixedAndDiagonal();
     return { ok: true };
+  }
+
+  /**
+   * scatter() for a mapped block whose inner size and non-constant blocks are
+   * all 6 (poses): dense 6x6 products without zero tests, and a map that
+   * equals ± an earlier position's map (e.g. T_ref_cam⁻¹ and T_ref_target in
+   * one chain: M_cam = −M_target) reuses that position's products:
+   * M_k = s_k M_r, M_l = s_l M_r ⇒ M_kᵀ A M_l = s_k s_l M_rᵀ A M_r.
+   */
+  private scatterPose6(i: number, ps: readonly number[], maps: Float64Array[], nc: number): void {
+    const L = this.layout;
+    const kinds = L.posKind[i]!;
+    const hecs = L.posHec[i]!;
+    const A = this.A;
+    const b = this.b;
+    const g = this.g;
+    const Tl = this.Tl;
+    const n = ps.length;
+    const sign = this.mapSign;
+    // Group positions by their map up to sign; the first position of a group computes T = A M and B = Mᵀ A M.
+    let ref = -1;
+    for (let l = 0; l < n; l++) {
+      sign[l] = 0;
+      if (kinds[l] === POS_CONSTANT) continue;
+      if (ref >= 0) {
+        const Mr = maps[ref]!;
+        const Ml = maps[l]!;
+        let same = true;
+        let neg = true;
+        for (let q = 0; q < 36 && (same || neg); q++) {
+          const x = Ml[q]!;
+          const y = Mr[q]!;
+          if (x !== y) same = false;
+          if (x !== -y) neg = false;
+        }
+        if (same) { sign[l] = 1; continue; }
+        if (neg) { sign[l] = -1; continue; }
+      } else ref = l;
+      mul66(A, maps[l]!, Tl[l]!);
+    }
+    const B = this.B;
+    let bRef = false;
+    for (let k = 0; k < n; k++) {
+      const kk = kinds[k]!;
+      if (kk === POS_CONSTANT) continue;
+      const bk = ps[k]!;
+      const sk = sign[k]! === 0 ? 1 : sign[k]!;
+      const Mk = sign[k]! === 0 ? maps[k]! : maps[ref]!;
+      const gOff = L.globalOffset[bk]!;
+      for (let u = 0; u < 6; u++) {
+        let sum = 0;
+        for (let a = 0; a < 6; a++) sum += Mk[a * 6 + u]! * b[a]!;
+        g[gOff + u] = g[gOff + u]! + sk * sum;
+      }
+      for (let l = 0; l < n; l++) {
+        const kl = kinds[l]!;
+        if (kl === POS_CONSTANT) continue;
+        if (kk === POS_KEPT && kl === POS_ELIMINATED) continue;
+        const bl = ps[l]!;
+        let dest: Float64Array;
+        let off: number;
+        if (kk === POS_KEPT && kl === POS_KEPT) {
+          dest = this.Hcc;
+          off = L.globalOffset[bk]! * nc + L.globalOffset[bl]!;
+        } else if (kk === POS_ELIMINATED && kl === POS_ELIMINATED) {
+          dest = this.Hee;
+          off = L.heeOffset[L.elimIndex[bk]!]!;
+        } else {
+          dest = this.Hec;
+          off = hecs[l]!;
+        }
+        const stride = kk === POS_KEPT && kl === POS_KEPT ? nc : 6;
+        if (sign[k] !== 0 || k === ref) {
+          if (sign[l] !== 0 || l === ref) {
+            // Both maps are ± M_ref: B_ref = M_refᵀ A M_ref, computed once.
+            if (!bRef) {
+              mulT66(maps[ref]!, Tl[ref]!, B);
+              bRef = true;
+            }
+            const s2 = (k === ref ? 1 : sign[k]!) * (l === ref ? 1 : sign[l]!);
+            addScaled66(B, s2, dest, off, stride);
+            continue;
+          }
+        }
+        // General pair: M_kᵀ (A M_l), with M_l's product from its group.
+        const sl = sign[l]! === 0 ? 1 : sign[l]!;
+        const T = sign[l]! === 0 ? Tl[l]! : Tl[ref]!;
+        mulT66(Mk, T, this.B2);
+        addScaled66(this.B2, sk * sl, dest, off, stride);
+      }
+    }
   }
 
   /** H_kl += M_kᵀ A M_l and g_k += M_kᵀ b for the positions of residual block i. */
