@@ -47,6 +47,8 @@ interface CaseResult {
   totalSeconds: number;
   lmSeconds: number;
   nsPerDetectionIteration: number;
+  /** Median over all LM iterations of (iteration time / detections): the steady-state cost, without each stage's first linearisation and JIT warm-up. */
+  nsPerDetectionIterationMedian: number;
   peakRssMb: number;
 }
 
@@ -65,10 +67,13 @@ function runCase(c: Case): CaseResult {
   const totalSeconds = (performance.now() - t0) / 1000;
   let lmSeconds = 0;
   let detIter = 0;
+  const perIteration: number[] = [];
   for (const st of sol.stages) {
     lmSeconds += st.summary.totalSeconds;
     detIter += (st.summary.numResiduals / 2) * Math.max(1, st.summary.iterations.length);
+    for (const r of st.summary.iterations) perIteration.push((r.timeSeconds * 1e9) / (st.summary.numResiduals / 2));
   }
+  perIteration.sort((a, b) => a - b);
   const used = sol.cameras.reduce((s, cam) => s + cam.detectionsUsed, 0);
   return {
     name: c.name,
@@ -78,6 +83,7 @@ function runCase(c: Case): CaseResult {
     totalSeconds,
     lmSeconds,
     nsPerDetectionIteration: (lmSeconds * 1e9) / detIter,
+    nsPerDetectionIterationMedian: perIteration[perIteration.length >> 1] ?? NaN,
     peakRssMb: process.resourceUsage().maxRSS / 1024,
   };
 }
@@ -96,14 +102,16 @@ if (only >= 0) {
   console.log('rigsolve benchmark: simulated sessions solved end to end (PnP, initialisation, robust solve, rejection rounds, covariance)');
   console.log('targets: L under 1.5 s in total, at most 150 ns per detection per LM iteration, peak RSS under 400 MB\n');
   console.log('R: fixed_targets (calibration room); I: joint intrinsics (9 parameters per camera, k3 held fixed)\n');
-  console.log('case  rig                                  detections  iterations  total s   LM s   ns/det/iter  peak RSS MB');
+  console.log('ns/det/iter: all LM time (including each stage\'s first linearisation and JIT warm-up) / (detections × iterations);');
+  console.log('median: the median iteration alone (steady state)\n');
+  console.log('case  rig                                  detections  iterations  total s   LM s   ns/det/iter  median  peak RSS MB');
   for (const c of CASES) {
     const out = execFileSync(process.execPath, [self, '--case', c.name], { encoding: 'utf8' });
     const r = JSON.parse(out.trim().split('\n').pop()!) as CaseResult;
     console.log(
       `${r.name.padEnd(4)}  ${r.label.padEnd(35)}  ${String(r.detections).padStart(10)}  ${String(r.iterations).padStart(10)}  ${r.totalSeconds
         .toFixed(3)
-        .padStart(7)}  ${r.lmSeconds.toFixed(3).padStart(5)}  ${r.nsPerDetectionIteration.toFixed(0).padStart(11)}  ${r.peakRssMb.toFixed(0).padStart(11)}`,
+        .padStart(7)}  ${r.lmSeconds.toFixed(3).padStart(5)}  ${r.nsPerDetectionIteration.toFixed(0).padStart(11)}  ${r.nsPerDetectionIterationMedian.toFixed(0).padStart(6)}  ${r.peakRssMb.toFixed(0).padStart(11)}`,
     );
   }
   console.log('');
