@@ -65,6 +65,9 @@ export const ROBUST_STAGE_LM: Partial<LmOptions> = Object.freeze({ functionToler
 /** sqrt of the 99.9 % quantile of χ² with 2 degrees of freedom: sqrt(−2 ln 0.001). */
 export const OUTLIER_SIGMAS = Math.sqrt(-2 * Math.log(0.001));
 
+/** Smallest robust scale used for rejection, in whitened units (a thousandth of the stated pixel sigma). */
+export const MIN_ROBUST_SIGMA = 1e-3;
+
 export interface RigSolveOptions {
   /** Robust loss of the first joint solve (whitened units). Default 'huber'. */
   loss: 'huber' | 'cauchy' | 'none';
@@ -478,7 +481,9 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     const all = new Float64Array(total);
     let at = 0;
     for (const n of norms) for (let k = 0; k < n.e.length; k++) all[at++] = n.e[k]! * n.e[k]!;
-    return Math.sqrt(median(all) / (2 * Math.LN2));
+    // Floor: with (nearly) noise-free detections the scale collapses to round-off,
+    // and nothing should be rejected for errors of a thousandth of the stated sigma.
+    return Math.max(Math.sqrt(median(all) / (2 * Math.LN2)), MIN_ROBUST_SIGMA);
   };
   /** Fixed extrinsics: σ̂ per camera (see RigSolveOptions.fixedExtrinsics); otherwise one σ̂ for all. */
   const rejectionLimits = (built: BuiltProblem, norms: { e: Float64Array }[]): Float64Array => {
