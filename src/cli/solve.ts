@@ -18,6 +18,7 @@ import { renderHtmlReport } from '../report/html.js';
 import { loadRigDescription } from '../rig/description-file.js';
 import { solveSummaryJson, solveSummaryText } from '../report/summary.js';
 import { EXIT_FAILED, OptionsError } from '../errors.js';
+import { RigSolveError } from '../rig/errors.js';
 import type { CliContext } from './context.js';
 import { commandProgress } from './progress.js';
 import { detectionReportLines, sessionWithDetections } from '../detect/session-detect.js';
@@ -110,6 +111,14 @@ export function registerSolve(program: Command, ctx: CliContext): void {
         } finally {
           progress.end();
         }
+        if (!solution.converged) {
+          // A rig that did not converge is not written: exit 1 with what to do.
+          throw new RigSolveError(
+            'rig.no_convergence',
+            `the joint solve did not converge (${solution.summary.message}); no rig file was written → check the intrinsics and ` +
+              'the detections of the cameras with the largest RMS (rigsolve report shows them), and capture more varied views',
+          );
+        }
         const rig = buildRigFile(solution);
         writeRigFile(o.out, rig, { force: Boolean(o.force) });
         if (o.report) {
@@ -122,7 +131,6 @@ export function registerSolve(program: Command, ctx: CliContext): void {
           ctx.out(solveSummaryText(rig, solution, o.out));
           if (o.report) ctx.out(`report: ${o.report}`);
         }
-        if (!solution.converged) ctx.exitCode = EXIT_FAILED;
       },
     );
 }
