@@ -103,9 +103,9 @@ function chi2Quantile(k: number, z: number): number {
   return k * Math.pow(1 - a + z * Math.sqrt(a), 3);
 }
 
-describe('statistical consistency of the covariance (50 noise realisations)', () => {
+describe('statistical consistency of the covariance (150 noise realisations)', () => {
   test('mean NEES inside the χ²₆ 95 % band and 1-sigma within 15 % of the empirical spread', () => {
-    const runs = 50;
+    const runs = 150;
     const desc = rig('stereo-bench.yaml');
     const nees: number[] = [];
     const deltas: Float64Array[] = [];
