@@ -803,4 +803,3 @@ export function relativeCovariance(solution: RigSolution, a: number, b: number):
   return out;
 }
 
-export { poseClone };

@@ -141,7 +141,7 @@ export class ViewResidual implements ResidualBlock {
   }
 
   evaluate(params: readonly Float64Array[], residuals: Float64Array, jacobian: Float64Array | null, maps: Float64Array[] | null): boolean {
-    const { model, points, pixels, invSigma, chain, intrinsicsParam } = this.spec;
+    const { model, points, pixels, invSigma, intrinsicsParam } = this.spec;
     const intr = intrinsicsParam >= 0 ? params[intrinsicsParam]! : this.spec.intrinsics;
     const X = this.composePose(params, this.X);
     // Pose entries in locals: stores into `jacobian` could alias them otherwise, forcing reloads per point.
