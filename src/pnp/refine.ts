@@ -16,6 +16,7 @@
 import type { CameraModel } from '../camera/model.js';
 import { act, boxPlus, type Pose } from '../geometry/se3.js';
 import { choleskyInPlace, choleskySolveInPlace } from '../linalg/small.js';
+import { reprojectionNormalEquations } from './pose-normal.js';
 
 export interface RefineOptions {
   /** Maximum number of LM iterations (accepted or rejected steps). Default 100. */
@@ -103,9 +104,7 @@ const scratchJuvp = new Float64Array(6);
 
 /**
  * Residuals (as reprojectionResiduals) together with the Gauss–Newton normal
- * equations JᵀJ (6x6, full) and g = Jᵀr, accumulated point by point without
- * storing J. Each row of J is J_uv_p[row] · [−[p]×, I], i.e. for a row
- * a = (a0, a1, a2): [a × p, a] = [a2 y − a1 z, a0 z − a2 x, a1 x − a0 y, a0, a1, a2].
+ * equations JᵀJ (6x6) and g = Jᵀr (pose-normal.ts, unit weights, no loss).
  * Returns the first point that cannot be projected, or −1.
  */
 function normalEquations(
@@ -118,55 +117,8 @@ function normalEquations(
   JtJ: Float64Array,
   g: Float64Array,
 ): number {
-  const n = points3d.length / 3;
-  const R = T.R;
-  const r0 = R[0]!, r1 = R[1]!, r2 = R[2]!, r3 = R[3]!, r4 = R[4]!, r5 = R[5]!, r6 = R[6]!, r7 = R[7]!, r8 = R[8]!;
-  const t0 = T.t[0]!, t1 = T.t[1]!, t2 = T.t[2]!;
-  const p = scratchP;
-  const uv = scratchUv;
-  const Jp = scratchJuvp;
-  let a00 = 0, a01 = 0, a02 = 0, a03 = 0, a04 = 0, a05 = 0;
-  let a11 = 0, a12 = 0, a13 = 0, a14 = 0, a15 = 0;
-  let a22 = 0, a23 = 0, a24 = 0, a25 = 0;
-  let a33 = 0, a34 = 0, a35 = 0;
-  let a44 = 0, a45 = 0;
-  let a55 = 0;
-  let b0 = 0, b1 = 0, b2 = 0, b3 = 0, b4 = 0, b5 = 0;
-  for (let i = 0; i < n; i++) {
-    const X = points3d[3 * i]!, Y = points3d[3 * i + 1]!, Z = points3d[3 * i + 2]!;
-    const x = r0 * X + r1 * Y + r2 * Z + t0;
-    const y = r3 * X + r4 * Y + r5 * Z + t1;
-    const z = r6 * X + r7 * Y + r8 * Z + t2;
-    p[0] = x;
-    p[1] = y;
-    p[2] = z;
-    if (!model.project(params, p, uv, Jp)) return i;
-    const e0 = uv[0]! - pixels[2 * i]!;
-    const e1 = uv[1]! - pixels[2 * i + 1]!;
-    res[2 * i] = e0;
-    res[2 * i + 1] = e1;
-    for (let row = 0; row < 2; row++) {
-      const q0 = Jp[3 * row]!, q1 = Jp[3 * row + 1]!, q2 = Jp[3 * row + 2]!;
-      const e = row === 0 ? e0 : e1;
-      const j0 = q2 * y - q1 * z, j1 = q0 * z - q2 * x, j2 = q1 * x - q0 * y;
-      b0 += j0 * e; b1 += j1 * e; b2 += j2 * e; b3 += q0 * e; b4 += q1 * e; b5 += q2 * e;
-      a00 += j0 * j0; a01 += j0 * j1; a02 += j0 * j2; a03 += j0 * q0; a04 += j0 * q1; a05 += j0 * q2;
-      a11 += j1 * j1; a12 += j1 * j2; a13 += j1 * q0; a14 += j1 * q1; a15 += j1 * q2;
-      a22 += j2 * j2; a23 += j2 * q0; a24 += j2 * q1; a25 += j2 * q2;
-      a33 += q0 * q0; a34 += q0 * q1; a35 += q0 * q2;
-      a44 += q1 * q1; a45 += q1 * q2;
-      a55 += q2 * q2;
-    }
-  }
-  const A = JtJ;
-  A[0] = a00; A[1] = a01; A[2] = a02; A[3] = a03; A[4] = a04; A[5] = a05;
-  A[6] = a01; A[7] = a11; A[8] = a12; A[9] = a13; A[10] = a14; A[11] = a15;
-  A[12] = a02; A[13] = a12; A[14] = a22; A[15] = a23; A[16] = a24; A[17] = a25;
-  A[18] = a03; A[19] = a13; A[20] = a23; A[21] = a33; A[22] = a34; A[23] = a35;
-  A[24] = a04; A[25] = a14; A[26] = a24; A[27] = a34; A[28] = a44; A[29] = a45;
-  A[30] = a05; A[31] = a15; A[32] = a25; A[33] = a35; A[34] = a45; A[35] = a55;
-  g[0] = b0; g[1] = b1; g[2] = b2; g[3] = b3; g[4] = b4; g[5] = b5;
-  return -1;
+  const c = reprojectionNormalEquations(model, params, T, points3d, pixels, null, undefined, JtJ, g, res);
+  return c < 0 ? -c - 1 : -1;
 }
 
 function sumSq(r: Float64Array): number {

@@ -24,6 +24,7 @@ import type { CameraModel } from '../camera/model.js';
 import type { ResidualBlock } from '../solver/problem.js';
 import type { LossFunction } from '../solver/loss.js';
 import { adjoint, compose, inverse, poseIdentity, type Pose } from '../geometry/se3.js';
+import { reprojectionNormalEquations } from '../pnp/pose-normal.js';
 
 /** A pose stored as 12 numbers: R row-major (9), then t (3). */
 export function poseFromBlock(x: Float64Array, out: Pose = poseIdentity()): Pose {
@@ -204,71 +205,14 @@ export class ViewResidual implements ResidualBlock {
    * ρ′(r_u² + r_v²) go straight into A = Σ ρ′ jᵀj and b = Σ ρ′ jᵀr.
    * With free intrinsics it returns undefined (the engine uses evaluate()).
    */
-  linearizeInner(params: readonly Float64Array[], A: Float64Array, b: Float64Array, maps: Float64Array[] | null, rho: Float64Array, out: Float64Array): boolean | undefined {
+  linearizeInner(params: readonly Float64Array[], A: Float64Array, b: Float64Array, maps: Float64Array[] | null, _rho: Float64Array, out: Float64Array): boolean | undefined {
     if (this.nIntr > 0) return undefined;
     const { model, points, pixels, invSigma } = this.spec;
     const intr = this.spec.intrinsics;
     const loss = this.loss;
     const X = this.composePose(params, this.X);
-    const R0 = X.R[0]!, R1 = X.R[1]!, R2 = X.R[2]!, R3 = X.R[3]!, R4 = X.R[4]!, R5 = X.R[5]!, R6 = X.R[6]!, R7 = X.R[7]!, R8 = X.R[8]!;
-    const t0 = X.t[0]!, t1 = X.t[1]!, t2 = X.t[2]!;
-    const n = points.length / 3;
-    const uv = this.uv;
-    const pc = this.pc;
-    const Jp = this.Jp;
-    let a00 = 0, a01 = 0, a02 = 0, a03 = 0, a04 = 0, a05 = 0;
-    let a11 = 0, a12 = 0, a13 = 0, a14 = 0, a15 = 0;
-    let a22 = 0, a23 = 0, a24 = 0, a25 = 0;
-    let a33 = 0, a34 = 0, a35 = 0;
-    let a44 = 0, a45 = 0;
-    let a55 = 0;
-    let b0 = 0, b1 = 0, b2 = 0, b3 = 0, b4 = 0, b5 = 0;
-    let cost = 0;
-    for (let i = 0; i < n; i++) {
-      const Px = points[3 * i]!, Py = points[3 * i + 1]!, Pz = points[3 * i + 2]!;
-      const x = R0 * Px + R1 * Py + R2 * Pz + t0;
-      const y = R3 * Px + R4 * Py + R5 * Pz + t1;
-      const z = R6 * Px + R7 * Py + R8 * Pz + t2;
-      pc[0] = x;
-      pc[1] = y;
-      pc[2] = z;
-      if (!model.project(intr, pc, uv, Jp)) return false;
-      const w = invSigma[i]!;
-      const ru = (uv[0]! - pixels[2 * i]!) * w;
-      const rv = (uv[1]! - pixels[2 * i + 1]!) * w;
-      const s = ru * ru + rv * rv;
-      // One code path with and without a loss (no branch that only one stage would reach).
-      let rhoS = s;
-      let q = 1;
-      if (loss) {
-        loss.evaluate(s, rho);
-        rhoS = rho[0]!;
-        q = rho[1]! > 0 ? rho[1]! : 0;
-      }
-      cost += rhoS;
-      if (q === 0) continue;
-      for (let row = 0; row < 2; row++) {
-        const c0 = Jp[3 * row]! * w, c1 = Jp[3 * row + 1]! * w, c2 = Jp[3 * row + 2]! * w;
-        const e = row === 0 ? ru : rv;
-        const j0 = c2 * y - c1 * z, j1 = c0 * z - c2 * x, j2 = c1 * x - c0 * y;
-        // Left factor scaled by the loss weight.
-        const k0 = q * j0, k1 = q * j1, k2 = q * j2, k3 = q * c0, k4 = q * c1, k5 = q * c2;
-        b0 += k0 * e; b1 += k1 * e; b2 += k2 * e; b3 += k3 * e; b4 += k4 * e; b5 += k5 * e;
-        a00 += k0 * j0; a01 += k0 * j1; a02 += k0 * j2; a03 += k0 * c0; a04 += k0 * c1; a05 += k0 * c2;
-        a11 += k1 * j1; a12 += k1 * j2; a13 += k1 * c0; a14 += k1 * c1; a15 += k1 * c2;
-        a22 += k2 * j2; a23 += k2 * c0; a24 += k2 * c1; a25 += k2 * c2;
-        a33 += k3 * c0; a34 += k3 * c1; a35 += k3 * c2;
-        a44 += k4 * c1; a45 += k4 * c2;
-        a55 += k5 * c2;
-      }
-    }
-    A[0] = a00; A[1] = a01; A[2] = a02; A[3] = a03; A[4] = a04; A[5] = a05;
-    A[6] = a01; A[7] = a11; A[8] = a12; A[9] = a13; A[10] = a14; A[11] = a15;
-    A[12] = a02; A[13] = a12; A[14] = a22; A[15] = a23; A[16] = a24; A[17] = a25;
-    A[18] = a03; A[19] = a13; A[20] = a23; A[21] = a33; A[22] = a34; A[23] = a35;
-    A[24] = a04; A[25] = a14; A[26] = a24; A[27] = a34; A[28] = a44; A[29] = a45;
-    A[30] = a05; A[31] = a15; A[32] = a25; A[33] = a35; A[34] = a45; A[35] = a55;
-    b[0] = b0; b[1] = b1; b[2] = b2; b[3] = b3; b[4] = b4; b[5] = b5;
+    const cost = reprojectionNormalEquations(model, intr, X, points, pixels, invSigma, loss, A, b, null);
+    if (cost < 0) return false;
     out[0] = 0.5 * cost;
     if (maps !== null) this.fillMaps(params, maps);
     return true;
