@@ -71,6 +71,21 @@ export function solveSummaryText(rig: RigFile, solution: RigSolution, outPath?: 
     `RMS ${f(q.rms_px, 3)} px · sigma0 ${f(q.sigma0, 3)} · ${q.frames_used} frames · ${q.iterations} iterations · ${q.converged ? 'converged' : 'NOT converged'} (${solution.summary.message})`,
   );
   out.push('±: 1-sigma from the covariance scaled by sigma0²; sigma0 near 1 means the stated pixel noise matches the residuals.');
+  const solved = solution.cameras.filter((c) => c.intrinsicsSolved && c.intrinsicsCovariance);
+  if (solved.length > 0) {
+    out.push('');
+    out.push('intrinsics refined in the joint solve (value ± 1-sigma; px for fx fy cx cy):');
+    for (const c of solved) {
+      const n = c.model.numParams;
+      const parts = c.model.paramNames.map((name, i) => {
+        const sd = Math.sqrt(Math.max(0, c.intrinsicsCovariance![i * n + i]!));
+        const v = c.intrinsics[i]!;
+        if (sd === 0) return `${name} ${v} (fixed)`;
+        return i < 4 ? `${name} ${v.toFixed(2)}±${sd.toFixed(2)}` : `${name} ${v.toPrecision(4)}±${sd.toPrecision(2)}`;
+      });
+      out.push(`  ${c.name.padEnd(16)} ${parts.join('  ')}`);
+    }
+  }
   const priorRows = solution.cameras.filter((c) => c.sigmasFromDesign !== undefined);
   if (priorRows.length > 0) {
     out.push('');
