@@ -72,70 +72,10 @@ export function initialiseViewPoses(
     if (onProgress && visited % progressStep === 0) onProgress(visited, views.length);
     visited++;
     if (view.status !== 'used') continue;
-    const camName = session.cameras[view.camera]!.name;
-    if (view.rows.length < MIN_VIEW_POINTS) {
-      view.status = 'too_few_points';
-      view.reason = `${view.rows.length} points (at least ${MIN_VIEW_POINTS} needed)`;
-      continue;
-    }
-    const model = models[view.camera]!;
-    const intr = params[view.camera]!;
-    // Pixels the camera model cannot unproject (beyond the lens model's valid
-    // region: usually gross detections) are dropped from the view. PnP
-    // unprojects every pixel itself, so the filter runs only after it reports one.
-    const dropUnprojectable = (): boolean => {
-      const d = session.detections;
-      const ray = new Float64Array(3);
-      const uv = new Float64Array(2);
-      const valid = Array.from(view.rows).filter((r) => {
-        uv[0] = d.u[r]!;
-        uv[1] = d.v[r]!;
-        return model.unproject(intr, uv, ray);
-      });
-      if (valid.length === view.rows.length) return true;
-      if (valid.length < MIN_VIEW_POINTS) {
-        view.status = 'pnp_failed';
-        view.reason = `${view.rows.length - valid.length} of ${view.rows.length} pixels lie outside the valid region of the ${model.name} model of camera ${camName}`;
-        return false;
-      }
-      view.rows = Int32Array.from(valid);
-      return true;
-    };
-    try {
-      let fit: PnpResult;
-      try {
-        const { points, pixels } = viewData(session, view);
-        fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
-      } catch (e) {
-        if (!(e instanceof PnpError && e.code === 'pnp.unprojectable')) throw e;
-        if (!dropUnprojectable()) continue;
-        const { points, pixels } = viewData(session, view);
-        fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
-      }
-      // residualsPx: per-point error norm, px.
-      const norms = fit.residualsPx;
-      const thr = Math.max(5 * median(norms), 2);
-      const keep: number[] = [];
-      for (let k = 0; k < norms.length; k++) if (norms[k]! <= thr) keep.push(view.rows[k]!);
-      if (keep.length < Math.max(MIN_VIEW_POINTS, Math.ceil(0.5 * view.rows.length))) {
-        view.status = 'too_many_outliers';
-        view.reason = `only ${keep.length} of ${view.rows.length} points agree with the PnP pose`;
-        continue;
-      }
-      if (keep.length < view.rows.length) {
-        const sub = viewData(session, view, keep);
-        fit = solvePnP(model, intr, sub.points, sub.pixels, INIT_PNP_OPTIONS);
-      }
-      view.T_cam_target = fit.T_cam_target;
-      view.pnpRmsPx = fit.rmsPx;
-      rmsList.push(fit.rmsPx);
-    } catch (e) {
-      view.status = 'pnp_failed';
-      view.reason = `PnP failed for camera ${camName}: ${(e as Error).message}`;
-    }
+    if (fitViewPose(session, view, models[view.camera]!, params[view.camera]!)) rmsList.push(view.pnpRmsPx!);
   }
   const med = median(rmsList);
-  const limit = Math.max(5 * med, 3);
+  const limit = pnpOutlierLimit(med);
   let used = 0;
   let setAside = 0;
   for (const view of views) {
@@ -147,6 +87,79 @@ export function initialiseViewPoses(
     else setAside++;
   }
   return { used, setAside, medianRmsPx: med };
+}
+
+/** Limit on a view's (trimmed) PnP RMS, px, given the median over all views: max(5 × median, 3 px). */
+export function pnpOutlierLimit(medianRmsPx: number): number {
+  return Math.max(5 * medianRmsPx, 3);
+}
+
+/**
+ * PnP for one view with the camera's current intrinsics, trimmed once (see the
+ * module comment). On success sets view.T_cam_target and view.pnpRmsPx and
+ * returns true; otherwise sets view.status and view.reason and returns false.
+ */
+export function fitViewPose(session: Session, view: View, model: CameraModel, intr: Float64Array): boolean {
+  const camName = session.cameras[view.camera]!.name;
+  if (view.rows.length < MIN_VIEW_POINTS) {
+    view.status = 'too_few_points';
+    view.reason = `${view.rows.length} points (at least ${MIN_VIEW_POINTS} needed)`;
+    return false;
+  }
+  // Pixels the camera model cannot unproject (beyond the lens model's valid
+  // region: usually gross detections) are dropped from the view. PnP
+  // unprojects every pixel itself, so the filter runs only after it reports one.
+  const dropUnprojectable = (): boolean => {
+    const d = session.detections;
+    const ray = new Float64Array(3);
+    const uv = new Float64Array(2);
+    const valid = Array.from(view.rows).filter((r) => {
+      uv[0] = d.u[r]!;
+      uv[1] = d.v[r]!;
+      return model.unproject(intr, uv, ray);
+    });
+    if (valid.length === view.rows.length) return true;
+    if (valid.length < MIN_VIEW_POINTS) {
+      view.status = 'pnp_failed';
+      view.reason = `${view.rows.length - valid.length} of ${view.rows.length} pixels lie outside the valid region of the ${model.name} model of camera ${camName}`;
+      return false;
+    }
+    view.rows = Int32Array.from(valid);
+    return true;
+  };
+  try {
+    let fit: PnpResult;
+    try {
+      const { points, pixels } = viewData(session, view);
+      fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
+    } catch (e) {
+      if (!(e instanceof PnpError && e.code === 'pnp.unprojectable')) throw e;
+      if (!dropUnprojectable()) return false;
+      const { points, pixels } = viewData(session, view);
+      fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
+    }
+    // residualsPx: per-point error norm, px.
+    const norms = fit.residualsPx;
+    const thr = Math.max(5 * median(norms), 2);
+    const keep: number[] = [];
+    for (let k = 0; k < norms.length; k++) if (norms[k]! <= thr) keep.push(view.rows[k]!);
+    if (keep.length < Math.max(MIN_VIEW_POINTS, Math.ceil(0.5 * view.rows.length))) {
+      view.status = 'too_many_outliers';
+      view.reason = `only ${keep.length} of ${view.rows.length} points agree with the PnP pose`;
+      return false;
+    }
+    if (keep.length < view.rows.length) {
+      const sub = viewData(session, view, keep);
+      fit = solvePnP(model, intr, sub.points, sub.pixels, INIT_PNP_OPTIONS);
+    }
+    view.T_cam_target = fit.T_cam_target;
+    view.pnpRmsPx = fit.rmsPx;
+    return true;
+  } catch (e) {
+    view.status = 'pnp_failed';
+    view.reason = `PnP failed for camera ${camName}: ${(e as Error).message}`;
+    return false;
+  }
 }
 
 export interface GraphEdge {

@@ -42,8 +42,10 @@ import {
   consensusPoses,
   frameTargetKey,
   groupByFrameTarget,
+  fitViewPose,
   initialiseFramePoses,
   initialiseViewPoses,
+  pnpOutlierLimit,
   spanningTree,
 } from './initialise.js';
 import { poseFromBlock, poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
@@ -258,7 +260,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     }
   });
   o.onProgress?.('pnp', 0, views.length);
-  initialiseViewPoses(session, views, models, intrinsics, o.onProgress ? (done, total) => o.onProgress!('pnp', done, total) : undefined);
+  const pnpOutcome = initialiseViewPoses(session, views, models, intrinsics, o.onProgress ? (done, total) => o.onProgress!('pnp', done, total) : undefined);
   o.onProgress?.('pnp', views.length, views.length);
 
   // 2-4. Camera extrinsics over the view graph, then frame (and target) poses
@@ -513,6 +515,27 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     const loss = o.loss === 'huber' ? huberLoss(a) : cauchyLoss(a);
     for (const block of built.blocks) block.setLoss(loss);
     runStage(`robust (${o.loss})`, built, ROBUST_STAGE_LM);
+    // Views set aside for a high PnP error while their camera's intrinsics were still the
+    // initial estimates get a second chance with the refined ones (corner views matter most
+    // for intrinsics, and they suffer most from a rough initial distortion).
+    const limit = pnpOutlierLimit(pnpOutcome.medianRmsPx);
+    for (const view of views) {
+      if (view.status !== 'pnp_outlier' || !solvesIntrinsics[view.camera]) continue;
+      const reason = view.reason;
+      view.status = 'used';
+      const c = view.camera;
+      const key = poseKey(view);
+      const fitted = fitViewPose(session, view, models[c]!, intrinsics[c]!) && view.pnpRmsPx! <= limit;
+      if (fitted && !frameValues.has(key) && !fixedScene) {
+        frameValues.set(key, poseToBlock(compose(poseFromBlock(camValues[c]!), view.T_cam_target!)));
+      }
+      if (!fitted || !frameValues.has(key)) {
+        if (view.status === 'used') {
+          view.status = 'pnp_outlier';
+          if (reason !== undefined) view.reason = reason;
+        }
+      }
+    }
   }
   let summary: SolveSummary | undefined;
   for (let round = 0; round <= o.maxRejectionRounds; round++) {
