@@ -30,7 +30,7 @@ import { Problem, solve, huberLoss, type IterationRecord, type LossFunction, typ
 import { MIN_VIEW_POINTS, groupByFrameTarget, initialiseFramePoses, initialiseViewPoses } from './initialise.js';
 import { OUTLIER_SIGMAS, type CameraResult, type RejectedView, type RigSolution } from './solve.js';
 import { poseFromBlock, poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
-import { groupViews, viewData, type View } from './views.js';
+import { cameraUsage, groupViews, viewData, type View } from './views.js';
 
 export interface EvaluateOptions {
   /** Progress of long stages ('pnp', 'frames'). */
@@ -241,7 +241,6 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
   const detPerCam = new Int32Array(nc);
   for (let i = 0; i < d.count; i++) detPerCam[d.camera[i]!]!++;
   const cameras: CameraResult[] = names.map((name, c) => {
-    const camViews = views.filter((v) => v.camera === c);
     return {
       intrinsicsSolved: false,
       intrinsicsCovariance: null,
@@ -252,11 +251,7 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
       covariance: Float64Array.from(entries[c]!.covariance),
       model: models[c]!,
       intrinsics: intrinsics[c]!,
-      rmsPx: used[c]! > 0 ? Math.sqrt(sq[c]! / used[c]!) : NaN,
-      detectionsUsed: used[c]!,
-      detectionsRejected: detPerCam[c]! - used[c]!,
-      viewsUsed: camViews.filter((v) => v.status === 'used').length,
-      viewsRejected: camViews.filter((v) => v.status !== 'used').length,
+      ...cameraUsage(views, c, sq[c]!, used[c]!, detPerCam[c]!),
     };
   });
   const joint = new Float64Array(36 * nc * nc);

@@ -49,7 +49,7 @@ import {
   spanningTree,
 } from './initialise.js';
 import { poseFromBlock, poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
-import { groupViews, viewData, type View } from './views.js';
+import { cameraUsage, groupViews, viewData, type View } from './views.js';
 import { fixedIntrinsicIndices, initialiseIntrinsics, intrinsicsWarnings } from './intrinsics.js';
 import { captureWarnings, poorlyConstrainedMessage } from './diagnostics.js';
 
@@ -615,7 +615,6 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   const cameras: CameraResult[] = names.map((name, c) => {
     const covariance = new Float64Array(36);
     for (let i = 0; i < 6; i++) for (let j = 0; j < 6; j++) covariance[i * 6 + j] = joint[(6 * c + i) * 6 * nc + 6 * c + j]!;
-    const camViews = views.filter((v) => v.camera === c);
     const intrId = built.intrIds[c]!;
     const intrinsicsCovariance = intrId >= 0 && cov ? cov.block(intrId).map((x) => x * s2) : null;
     const prior = priorBlocks[c];
@@ -630,11 +629,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       covariance,
       model: models[c]!,
       intrinsics: intrinsics[c]!,
-      rmsPx: used[c]! > 0 ? Math.sqrt(sq[c]! / used[c]!) : NaN,
-      detectionsUsed: used[c]!,
-      detectionsRejected: detPerCam[c]! - used[c]!,
-      viewsUsed: camViews.filter((v) => v.status === 'used').length,
-      viewsRejected: camViews.filter((v) => v.status !== 'used').length,
+      ...cameraUsage(views, c, sq[c]!, used[c]!, detPerCam[c]!),
     };
   });
   for (const cam of cameras) warnings.push(...intrinsicsWarnings(cam, session.cameras[cam.index]!.resolution));

@@ -89,3 +89,31 @@ export function viewData(session: Session, view: View, rows: ArrayLike<number> =
   }
   return { points, pixels };
 }
+
+/**
+ * A camera's usage figures for reports: RMS over the detections used
+ * (sqrt(Σ(du² + dv²) / used)), detections used and rejected, views used and
+ * set aside. `sumSqPx` and `used` are the camera's totals over the detections used.
+ */
+export function cameraUsage(
+  views: View[],
+  camera: number,
+  sumSqPx: number,
+  used: number,
+  detections: number,
+): { rmsPx: number; detectionsUsed: number; detectionsRejected: number; viewsUsed: number; viewsRejected: number } {
+  let viewsUsed = 0;
+  let viewsRejected = 0;
+  for (const v of views) {
+    if (v.camera !== camera) continue;
+    if (v.status === 'used') viewsUsed++;
+    else viewsRejected++;
+  }
+  return {
+    rmsPx: used > 0 ? Math.sqrt(sumSqPx / used) : NaN,
+    detectionsUsed: used,
+    detectionsRejected: detections - used,
+    viewsUsed,
+    viewsRejected,
+  };
+}
