@@ -128,11 +128,7 @@ export class ViewResidual implements ResidualBlock {
   /** Composes X = T_cam_target from the current parameter values. */
   composePose(params: readonly Float64Array[], out: Pose): Pose {
     const { chain } = this.spec;
-    out.R.fill(0);
-    out.R[0] = 1;
-    out.R[4] = 1;
-    out.R[8] = 1;
-    out.t.fill(0);
+    setIdentity(out);
     for (const f of chain) {
       const F = f.param >= 0 ? poseFromBlock(params[f.param]!, this.F) : f.constant!;
       if (f.sign === 1) compose(out, F, out);
@@ -219,14 +215,9 @@ export class ViewResidual implements ResidualBlock {
   }
 
   private fillMaps(params: readonly Float64Array[], maps: Float64Array[]): void {
-    const { chain, intrinsicsParam, parameterBlocks } = this.spec;
+    const { chain, intrinsicsParam } = this.spec;
     const inner = this.innerSize;
-    const L = this.L;
-    L.R.fill(0);
-    L.R[0] = 1;
-    L.R[4] = 1;
-    L.R[8] = 1;
-    L.t.fill(0);
+    const L = setIdentity(this.L);
     for (const f of chain) {
       const F = f.param >= 0 ? poseFromBlock(params[f.param]!, this.F) : f.constant!;
       if (f.sign === 1) {
@@ -243,8 +234,17 @@ export class ViewResidual implements ResidualBlock {
       M.fill(0);
       for (let k = 0; k < n; k++) M[(6 + k) * n + k] = 1;
     }
-    void parameterBlocks;
   }
+}
+
+/** Sets T to the identity in place (no allocation) and returns it. */
+function setIdentity(T: Pose): Pose {
+  T.R.fill(0);
+  T.R[0] = 1;
+  T.R[4] = 1;
+  T.R[8] = 1;
+  T.t.fill(0);
+  return T;
 }
 
 /** Writes sign·Ad (6x6) into the top 6 rows of an inner x 6 map; rows below are zero. */

@@ -466,20 +466,10 @@ export class NormalEquations {
         const kl = kinds[l]!;
         if (kl === POS_CONSTANT) continue;
         if (kk === POS_KEPT && kl === POS_ELIMINATED) continue;
-        const bl = ps[l]!;
-        let dest: Float64Array;
-        let off: number;
-        if (kk === POS_KEPT && kl === POS_KEPT) {
-          dest = this.Hcc;
-          off = L.globalOffset[bk]! * nc + L.globalOffset[bl]!;
-        } else if (kk === POS_ELIMINATED && kl === POS_ELIMINATED) {
-          dest = this.Hee;
-          off = L.heeOffset[L.elimIndex[bk]!]!;
-        } else {
-          dest = this.Hec;
-          off = hecs[l]!;
-        }
-        const stride = kk === POS_KEPT && kl === POS_KEPT ? nc : 6;
+        this.selectDestination(kk, kl, bk, ps[l]!, hecs[l]!, 6, 6, nc);
+        const dest = this.dest;
+        const off = this.destOff;
+        const stride = this.destStride;
         if (sign[k] !== 0 || k === ref) {
           if (sign[l] !== 0 || l === ref) {
             // Both maps are ± M_ref: B_ref = M_refᵀ A M_ref, computed once.
@@ -498,6 +488,34 @@ export class NormalEquations {
         mulT66(Mk, T, this.B2);
         addScaled66(this.B2, sk * sl, dest, off, stride);
       }
+    }
+  }
+
+  /** Destination of the (k, l) Hessian block chosen by selectDestination(). */
+  private dest: Float64Array = new Float64Array(0);
+  private destOff = 0;
+  private destStride = 0;
+
+  /**
+   * Where block (k, l) of the normal matrix lives: H_cc (kept x kept, dense,
+   * stride nc), H_ee (the eliminated block's own tk x tk square) or H_ec
+   * (eliminated row, kept column, at its precomputed offset, stride tl).
+   * Callers skip (kept, eliminated): only H_ec is stored, not its transpose.
+   */
+  private selectDestination(kk: number, kl: number, bk: number, bl: number, hec: number, tk: number, tl: number, nc: number): void {
+    const L = this.layout;
+    if (kk === POS_KEPT && kl === POS_KEPT) {
+      this.dest = this.Hcc;
+      this.destOff = L.globalOffset[bk]! * nc + L.globalOffset[bl]!;
+      this.destStride = nc;
+    } else if (kk === POS_ELIMINATED && kl === POS_ELIMINATED) {
+      this.dest = this.Hee;
+      this.destOff = L.heeOffset[L.elimIndex[bk]!]!;
+      this.destStride = tk;
+    } else {
+      this.dest = this.Hec;
+      this.destOff = hec;
+      this.destStride = tl;
     }
   }
 
@@ -564,23 +582,10 @@ export class NormalEquations {
         if (kk === POS_KEPT && kl === POS_ELIMINATED) continue;
         const bl = ps[l]!;
         const tl = pr.parameterBlock(bl).tangentSize;
-        // Destination.
-        let dest: Float64Array;
-        let off: number;
-        let stride: number;
-        if (kk === POS_KEPT && kl === POS_KEPT) {
-          dest = this.Hcc;
-          off = L.globalOffset[bk]! * nc + L.globalOffset[bl]!;
-          stride = nc;
-        } else if (kk === POS_ELIMINATED && kl === POS_ELIMINATED) {
-          dest = this.Hee;
-          off = L.heeOffset[L.elimIndex[bk]!]!;
-          stride = tk;
-        } else {
-          dest = this.Hec;
-          off = hecs[l]!;
-          stride = tl;
-        }
+        this.selectDestination(kk, kl, bk, bl, hecs[l]!, tk, tl, nc);
+        const dest = this.dest;
+        const off = this.destOff;
+        const stride = this.destStride;
         if (Mk) {
           // B = M_kᵀ T_l (tk x tl)
           const T = Tl[l]!;
