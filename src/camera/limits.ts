@@ -130,6 +130,8 @@ export class LimitCache {
   private readonly values: Float64Array;
   private readonly slots: number;
   private next = 0;
+  /** Slot of the last hit, tried first: consecutive calls usually come from one camera. */
+  private last = 0;
   /** The two cached values of the last `lookup` (valid until the next call). */
   value0 = NaN;
   value1 = NaN;
@@ -147,8 +149,15 @@ export class LimitCache {
   /** Sets value0/value1 for the given coefficients; returns value0. */
   lookup(k1: number, k2: number, k3: number, k4: number): number {
     const keys = this.keys;
+    const l = this.last;
+    if (keys[4 * l] === k1 && keys[4 * l + 1] === k2 && keys[4 * l + 2] === k3 && keys[4 * l + 3] === k4) {
+      this.value0 = this.values[2 * l]!;
+      this.value1 = this.values[2 * l + 1]!;
+      return this.value0;
+    }
     for (let i = 0, j = 0; i < this.slots; i++, j += 4) {
       if (keys[j] === k1 && keys[j + 1] === k2 && keys[j + 2] === k3 && keys[j + 3] === k4) {
+        this.last = i;
         this.value0 = this.values[2 * i]!;
         this.value1 = this.values[2 * i + 1]!;
         return this.value0;
@@ -158,6 +167,7 @@ export class LimitCache {
     this.compute(k1, k2, k3, k4, out);
     const i = this.next;
     this.next = (i + 1) % this.slots;
+    this.last = i;
     keys[4 * i] = k1;
     keys[4 * i + 1] = k2;
     keys[4 * i + 2] = k3;

@@ -4,6 +4,7 @@ import { expectMatrixClose, numericJacobian, rng } from '../testing/numeric.js';
 import {
   act,
   adjoint,
+  adjointCongruence,
   boxMinus,
   boxPlus,
   compose,
@@ -121,5 +122,35 @@ describe('SE(3) details', () => {
     m.plus(x, d, x);
     expectMatrixClose(x, flat(boxPlus(T, d)), { abs: 1e-15 }, 'plus');
     expect(() => poseFromArray12([1, 2, 3])).toThrow(RangeError);
+  });
+});
+
+describe('adjointCongruence', () => {
+  it.each(samplePoses().map((T, i) => [i, T] as const))('equals the dense Ad(T)ᵀ A Ad(T), Ad(T)ᵀ b at pose %i', (_i, T) => {
+    const u = rng(5);
+    // A = JᵀJ of a random 9x6 Jacobian (symmetric, positive semi-definite, like the normal equations).
+    const J = Array.from({ length: 54 }, () => 2 * u() - 1);
+    const A = new Float64Array(36);
+    for (let i = 0; i < 6; i++) for (let j = 0; j < 6; j++) for (let r = 0; r < 9; r++) A[6 * i + j] += J[6 * r + i]! * J[6 * r + j]!;
+    const b = Float64Array.from({ length: 6 }, () => 2 * u() - 1);
+    const Ad = adjoint(T);
+    const denseA = new Float64Array(36);
+    const denseB = new Float64Array(6);
+    for (let i = 0; i < 6; i++) {
+      for (let k = 0; k < 6; k++) denseB[i] += Ad[6 * k + i]! * b[k]!;
+      for (let j = 0; j < 6; j++) {
+        let s = 0;
+        for (let k = 0; k < 6; k++) for (let l = 0; l < 6; l++) s += Ad[6 * k + i]! * A[6 * k + l]! * Ad[6 * l + j]!;
+        denseA[6 * i + j] = s;
+      }
+    }
+    const outA = new Float64Array(36);
+    const outB = new Float64Array(6);
+    adjointCongruence(T, A, b, outA, outB);
+    const scale = Math.max(1, ...denseA.map(Math.abs));
+    for (let k = 0; k < 36; k++) expect(Math.abs(outA[k]! - denseA[k]!)).toBeLessThan(1e-12 * scale);
+    for (let k = 0; k < 6; k++) expect(Math.abs(outB[k]! - denseB[k]!)).toBeLessThan(1e-12 * Math.max(1, ...denseB.map(Math.abs)));
+    // Exactly symmetric, as the solver's scatter assumes.
+    for (let i = 0; i < 6; i++) for (let j = 0; j < 6; j++) expect(outA[6 * i + j]).toBe(outA[6 * j + i]);
   });
 });

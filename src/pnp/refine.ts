@@ -117,9 +117,15 @@ function normalEquations(
   JtJ: Float64Array,
   g: Float64Array,
 ): number {
-  const c = reprojectionNormalEquations(model, params, T, points3d, pixels, null, undefined, JtJ, g, res);
+  const n = points3d.length / 3;
+  if (unitWeights.length < n) unitWeights = new Float64Array(n).fill(1);
+  // Unit weights as an array rather than null: the rig solver calls the same kernel with
+  // weights, and one argument type keeps its optimised code from being thrown away.
+  const c = reprojectionNormalEquations(model, params, T, points3d, pixels, unitWeights, undefined, JtJ, g, res);
   return c < 0 ? -c - 1 : -1;
 }
+
+let unitWeights = new Float64Array(64).fill(1);
 
 function sumSq(r: Float64Array): number {
   let s = 0;

@@ -134,29 +134,67 @@ describe('ViewResidual Jacobian', () => {
   });
 });
 
+/** M_kᵀ A M_l for 6x6 row-major matrices: what the engine adds to its (k, l) block. */
+function mapped(Mk: Float64Array, A: Float64Array, Ml: Float64Array): Float64Array {
+  const out = new Float64Array(36);
+  for (let i = 0; i < 6; i++)
+    for (let j = 0; j < 6; j++) {
+      let s = 0;
+      for (let a = 0; a < 6; a++) for (let c = 0; c < 6; c++) s += Mk[a * 6 + i]! * A[a * 6 + c]! * Ml[c * 6 + j]!;
+      out[i * 6 + j] = s;
+    }
+  return out;
+}
+
+/** M_kᵀ b. */
+function mappedVector(Mk: Float64Array, b: Float64Array): Float64Array {
+  const out = new Float64Array(6);
+  for (let i = 0; i < 6; i++) for (let a = 0; a < 6; a++) out[i] += Mk[a * 6 + i]! * b[a]!;
+  return out;
+}
+
 describe('ViewResidual fused linearisation', () => {
   // linearizeInner must give the engine exactly what evaluate() + IRLS weighting
-  // (loss.ts: r̃ = √ρ′ r, J̃ = √ρ′ J) + A = J̃ᵀJ̃, b = J̃ᵀr̃ would.
+  // (loss.ts: r̃ = √ρ′ r, J̃ = √ρ′ J) + A = J̃ᵀJ̃, b = J̃ᵀr̃ would, once mapped onto the
+  // parameter blocks (M_kᵀ A M_l, M_kᵀ b): its inner coordinates may differ.
+  const chains = {
+    // T_ref_cam⁻¹ · T_ref_target: both fused maps are exactly ∓I.
+    moving: [
+      { param: 0, sign: -1 },
+      { param: 1, sign: 1 },
+    ],
+    // T_ref_cam⁻¹ · T_origin_ref⁻¹ · T_origin_target: one map stays a full adjoint.
+    fixed: [
+      { param: 0, sign: -1 },
+      { param: 1, sign: -1 },
+      { param: 2, sign: 1 },
+    ],
+  } as const;
   test.each([
-    ['no loss', undefined],
-    ['huber', huberLoss(0.8)],
-    ['cauchy', cauchyLoss(0.5)],
-  ] as const)('matches evaluate() with the loss weighting: %s', (_name, loss) => {
+    ['no loss', undefined, 'moving'],
+    ['huber', huberLoss(0.8), 'moving'],
+    ['cauchy', cauchyLoss(0.5), 'moving'],
+    ['huber', huberLoss(0.8), 'fixed'],
+  ] as const)('matches evaluate() with the loss weighting: %s, %s chain', (_name, loss, chainName) => {
     const model = cameraModel('brown-conrady');
     const T_ref_cam = pose(0.2, 0.1);
     const ahead = pose(0.2, 0.05, [-0.2, -0.1, 1.5]);
-    const params = [poseToArray12(T_ref_cam), poseToArray12(compose(T_ref_cam, ahead))];
+    const chain = chains[chainName];
+    const nBlocks = chain.length;
+    // Fixed chain: T_origin_ref = pose(0.3, -0.2), T_origin_target = T_origin_ref · T_ref_cam · ahead.
+    const T_origin_ref = pose(0.3, -0.2, [0.4, 1.1, -0.3]);
+    const params =
+      nBlocks === 2
+        ? [poseToArray12(T_ref_cam), poseToArray12(compose(T_ref_cam, ahead))]
+        : [poseToArray12(T_ref_cam), poseToArray12(T_origin_ref), poseToArray12(compose(T_origin_ref, compose(T_ref_cam, ahead)))];
     const nPts = 9;
     const points = Float64Array.from({ length: 3 * nPts }, (_, i) => (i % 3 === 2 ? 0.05 * gaussian(u) : 0.3 * gaussian(u)));
     const pixels = Float64Array.from({ length: 2 * nPts }, () => 300 + 50 * gaussian(u));
     const invSigma = Float64Array.from({ length: nPts }, () => 1 / (0.5 + u()));
     const block = new ViewResidual({
       model,
-      parameterBlocks: [0, 1],
-      chain: [
-        { param: 0, sign: -1 },
-        { param: 1, sign: 1 },
-      ],
+      parameterBlocks: nBlocks === 2 ? [0, 1] : [0, 1, 2],
+      chain: [...chain],
       intrinsicsParam: -1,
       intrinsics: Float64Array.of(600, 610, 320, 240, -0.2, 0.05, 0.001, -0.001, 0.01),
       points,
@@ -167,7 +205,7 @@ describe('ViewResidual fused linearisation', () => {
     const m = block.numResiduals;
     const r = new Float64Array(m);
     const J = new Float64Array(m * 6);
-    const maps = [new Float64Array(36), new Float64Array(36)];
+    const maps = Array.from({ length: nBlocks }, () => new Float64Array(36));
     expect(block.evaluate(params, r, J, maps)).toBe(true);
     const Aref = new Float64Array(36);
     const bref = new Float64Array(6);
@@ -191,13 +229,19 @@ describe('ViewResidual fused linearisation', () => {
     const A = new Float64Array(36);
     const b = new Float64Array(6);
     const out = new Float64Array(1);
-    const fusedMaps = [new Float64Array(36), new Float64Array(36)];
+    const fusedMaps = Array.from({ length: nBlocks }, () => new Float64Array(36));
     expect(block.linearizeInner(params, A, b, fusedMaps, new Float64Array(3), out)).toBe(true);
-    expectMatrixClose(A, Aref, { rel: 1e-12 }, 'A');
-    expectMatrixClose(b, bref, { rel: 1e-12 }, 'b');
     expect(out[0]).toBeCloseTo(0.5 * cost, 10);
-    expectMatrixClose(fusedMaps[0]!, maps[0]!, { rel: 0 }, 'M_cam');
-    expectMatrixClose(fusedMaps[1]!, maps[1]!, { rel: 0 }, 'M_target');
+    for (let k = 0; k < nBlocks; k++) {
+      expectMatrixClose(mappedVector(fusedMaps[k]!, b), mappedVector(maps[k]!, bref), { rel: 1e-12 }, `M_${k}ᵀ b`);
+      for (let l = 0; l < nBlocks; l++) {
+        expectMatrixClose(mapped(fusedMaps[k]!, A, fusedMaps[l]!), mapped(maps[k]!, Aref, maps[l]!), { rel: 1e-12 }, `M_${k}ᵀ A M_${l}`);
+      }
+    }
+    // The last pose block's map is exactly I (its own tangent), and so is every map equal to it up to sign.
+    const identity = (s: number) => Float64Array.from({ length: 36 }, (_, q) => (q % 7 === 0 ? s : 0));
+    expect(Array.from(fusedMaps[nBlocks - 1]!)).toEqual(Array.from(identity(1)));
+    expect(Array.from(fusedMaps[nBlocks - 2]!)).toEqual(Array.from(identity(-1)));
   });
 
   test('defers to evaluate() when the intrinsics are free', () => {

@@ -23,7 +23,7 @@
 import type { CameraModel } from '../camera/model.js';
 import type { ResidualBlock } from '../solver/problem.js';
 import type { LossFunction } from '../solver/loss.js';
-import { adjoint, compose, inverse, poseIdentity, type Pose } from '../geometry/se3.js';
+import { adjoint, adjointCongruence, compose, inverse, poseIdentity, type Pose } from '../geometry/se3.js';
 import { reprojectionNormalEquations } from '../pnp/pose-normal.js';
 
 /** A pose stored as 12 numbers: R row-major (9), then t (3). */
@@ -80,6 +80,12 @@ const SCRATCH = {
   pc: new Float64Array(3),
   Jp: new Float64Array(6),
   Ji: new Float64Array(32),
+  /** Normal equations in the composed pose's tangent, before the change of inner coordinates. */
+  Ax: new Float64Array(36),
+  bx: new Float64Array(6),
+  /** G_k per chain position (see fillRelativeMaps). */
+  G: [] as Pose[],
+  Ginv: poseIdentity(),
 };
 
 export class ViewResidual implements ResidualBlock {
@@ -102,9 +108,12 @@ export class ViewResidual implements ResidualBlock {
   private readonly pc = SCRATCH.pc;
   private readonly Jp = SCRATCH.Jp;
   private readonly Ji: Float64Array;
+  /** spec.chain with every factor of one shape (constant: null when param ≥ 0), so the hot loops see one object layout. */
+  private readonly chain: { param: number; sign: number; constant: Pose | null }[];
 
   constructor(spec: ViewResidualSpec) {
     this.spec = spec;
+    this.chain = spec.chain.map((f) => ({ param: f.param, sign: f.sign, constant: f.constant ?? null }));
     this.numResiduals = 2 * (spec.pixels.length / 2);
     this.parameterBlocks = spec.parameterBlocks;
     this.nIntr = spec.intrinsicsParam >= 0 ? spec.model.numParams : 0;
@@ -127,9 +136,10 @@ export class ViewResidual implements ResidualBlock {
 
   /** Composes X = T_cam_target from the current parameter values. */
   composePose(params: readonly Float64Array[], out: Pose): Pose {
-    const { chain } = this.spec;
+    const chain = this.chain;
     setIdentity(out);
-    for (const f of chain) {
+    for (let k = 0; k < chain.length; k++) {
+      const f = chain[k]!;
       const F = f.param >= 0 ? poseFromBlock(params[f.param]!, this.F) : f.constant!;
       if (f.sign === 1) compose(out, F, out);
       else compose(out, inverse(F, this.tmp), out);
@@ -198,7 +208,15 @@ export class ViewResidual implements ResidualBlock {
    * (inner size 6): per detection the two Jacobian rows
    *   j = w·J_uv_p[row] · [−[p]×, I] = [a × p, a]  (a = w·J_uv_p[row], p = p_cam),
    * the whitened residuals r = w·(uv − uv_observed) and the loss weight
-   * ρ′(r_u² + r_v²) go straight into A = Σ ρ′ jᵀj and b = Σ ρ′ jᵀr.
+   * ρ′(r_u² + r_v²) go straight into A_X = Σ ρ′ jᵀj and b_X = Σ ρ′ jᵀr, with
+   * respect to the left perturbation of X.
+   *
+   * The inner coordinates handed to the engine are then those of the last
+   * pose block of the chain, r: with its map M_r = s_r Ad(G_r) (G_r as in
+   * fillRelativeMaps), A = Ad(G_r)ᵀ A_X Ad(G_r), b = Ad(G_r)ᵀ b_X, and every
+   * map becomes M_k' = Ad(G_r)⁻¹ M_k = s_k Ad(G_r⁻¹ G_k). For the usual chain
+   * T_ref_cam⁻¹ · T_ref_target both maps are then exactly ±I, so the engine
+   * adds A to its blocks without any 6x6 products (schur.ts, scatterPose6).
    * With free intrinsics it returns undefined (the engine uses evaluate()).
    */
   linearizeInner(params: readonly Float64Array[], A: Float64Array, b: Float64Array, maps: Float64Array[] | null, _rho: Float64Array, out: Float64Array): boolean | undefined {
@@ -207,18 +225,70 @@ export class ViewResidual implements ResidualBlock {
     const intr = this.spec.intrinsics;
     const loss = this.loss;
     const X = this.composePose(params, this.X);
-    const cost = reprojectionNormalEquations(model, intr, X, points, pixels, invSigma, loss, A, b, null);
+    if (maps === null) {
+      const cost = reprojectionNormalEquations(model, intr, X, points, pixels, invSigma, loss, A, b, null);
+      if (cost < 0) return false;
+      out[0] = 0.5 * cost;
+      return true;
+    }
+    const cost = reprojectionNormalEquations(model, intr, X, points, pixels, invSigma, loss, SCRATCH.Ax, SCRATCH.bx, null);
     if (cost < 0) return false;
     out[0] = 0.5 * cost;
-    if (maps !== null) this.fillMaps(params, maps);
+    const G = this.fillRelativeMaps(params, maps);
+    adjointCongruence(G, SCRATCH.Ax, SCRATCH.bx, A, b);
     return true;
   }
 
+  /**
+   * Maps for the inner coordinates of the last pose block r of the chain
+   * (see linearizeInner). With L_k the product of the factors left of
+   * position k, G_k = L_k for s_k = +1 and G_k = L_k F_k⁻¹ for s_k = −1, so
+   * that the map of evaluate() is M_k = s_k Ad(G_k). Writes
+   * M_k' = s_k Ad(G_r⁻¹ G_k), exactly s_k I when G_k and G_r hold the same
+   * numbers, and returns G_r.
+   */
+  private fillRelativeMaps(params: readonly Float64Array[], maps: Float64Array[]): Pose {
+    const chain = this.chain;
+    const G = SCRATCH.G;
+    while (G.length < chain.length) G.push(poseIdentity());
+    const L = setIdentity(this.L);
+    let r = -1;
+    for (let k = 0; k < chain.length; k++) {
+      const f = chain[k]!;
+      const F = f.param >= 0 ? poseFromBlock(params[f.param]!, this.F) : f.constant!;
+      if (f.sign === 1) {
+        if (f.param >= 0) copyPose(L, G[k]!);
+        compose(L, F, L);
+      } else {
+        compose(L, inverse(F, this.tmp), L);
+        if (f.param >= 0) copyPose(L, G[k]!);
+      }
+      if (f.param >= 0) r = k;
+    }
+    const Gr = G[r]!;
+    let GrInverse: Pose | null = null;
+    for (let k = 0; k < chain.length; k++) {
+      const f = chain[k]!;
+      if (f.param < 0) continue;
+      const M = maps[f.param]!;
+      if (samePose(G[k]!, Gr)) {
+        M.fill(0, 0, 36);
+        for (let i = 0; i < 6; i++) M[7 * i] = f.sign;
+      } else {
+        GrInverse ??= inverse(Gr, SCRATCH.Ginv);
+        writeMap(M, adjoint(compose(GrInverse, G[k]!, this.tmp), this.ad), f.sign, 6);
+      }
+    }
+    return Gr;
+  }
+
   private fillMaps(params: readonly Float64Array[], maps: Float64Array[]): void {
-    const { chain, intrinsicsParam } = this.spec;
+    const intrinsicsParam = this.spec.intrinsicsParam;
+    const chain = this.chain;
     const inner = this.innerSize;
     const L = setIdentity(this.L);
-    for (const f of chain) {
+    for (let k = 0; k < chain.length; k++) {
+      const f = chain[k]!;
       const F = f.param >= 0 ? poseFromBlock(params[f.param]!, this.F) : f.constant!;
       if (f.sign === 1) {
         if (f.param >= 0) writeMap(maps[f.param]!, adjoint(L, this.ad), 1, inner);
@@ -245,6 +315,19 @@ function setIdentity(T: Pose): Pose {
   T.R[8] = 1;
   T.t.fill(0);
   return T;
+}
+
+function copyPose(from: Pose, to: Pose): void {
+  for (let k = 0; k < 9; k++) to.R[k] = from.R[k]!;
+  to.t[0] = from.t[0]!;
+  to.t[1] = from.t[1]!;
+  to.t[2] = from.t[2]!;
+}
+
+/** True when both poses hold exactly the same 12 numbers. */
+function samePose(a: Pose, b: Pose): boolean {
+  for (let k = 0; k < 9; k++) if (a.R[k] !== b.R[k]) return false;
+  return a.t[0] === b.t[0] && a.t[1] === b.t[1] && a.t[2] === b.t[2];
 }
 
 /** Writes sign·Ad (6x6) into the top 6 rows of an inner x 6 map; rows below are zero. */

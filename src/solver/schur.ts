@@ -211,6 +211,21 @@ function schurSubtract(X: Float64Array, Y: Float64Array, P: Float64Array, S: Flo
   }
 }
 
+/** +1 when the 6x6 row-major M is exactly the identity, −1 when exactly its negative, else 0. */
+function identityScale(M: Float64Array): number {
+  const d = M[0]!;
+  if (d !== 1 && d !== -1) return 0;
+  for (let r = 0; r < 6; r++) {
+    for (let c = 0; c < 6; c++) if (M[r * 6 + c] !== (r === c ? d : 0)) return 0;
+  }
+  return d;
+}
+
+/** Copies the upper triangle of the n x n row-major S into its lower triangle. */
+function mirrorUpper(S: Float64Array, n: number): void {
+  for (let r = 1; r < n; r++) for (let c = 0; c < r; c++) S[r * n + c] = S[c * n + r]!;
+}
+
 /** T = A M for 6x6 row-major A, M. */
 function mul66(A: Float64Array, M: Float64Array, T: Float64Array): void {
   for (let a = 0; a < 6; a++) {
@@ -239,10 +254,119 @@ function addScaled66(B: Float64Array, s: number, dest: Float64Array, off: number
   }
 }
 
+/**
+ * Scratch and structure shared by every NormalEquations of one problem
+ * layout (the LM engine keeps two: the current point and the trial point).
+ * Linearisation is not re-entrant, so both can use the same buffers; only
+ * the results (g, diag, H blocks, cost) are per instance. Built once per
+ * layout, so the trial instance costs only its result arrays.
+ */
+class Workspace {
+  readonly r: Float64Array;
+  readonly J: Float64Array;
+  readonly JT: Float64Array;
+  readonly A: Float64Array;
+  readonly b: Float64Array;
+  readonly B: Float64Array;
+  readonly B2 = new Float64Array(36);
+  readonly gk: Float64Array;
+  readonly Tl: Float64Array[];
+  readonly rho = new Float64Array(3);
+  readonly fusedCost = new Float64Array(1);
+  /** Per eliminated block: global kept column of each stacked coupling column. */
+  readonly stackIndex: Int32Array[];
+  /** Per residual block: 1 when it is mapped, 6 inner columns and every non-constant position a 6-dim block (the pose fast path). */
+  readonly pose6: Uint8Array;
+  /** Per position of the current block: +1 / −1 when its map equals ± the reference position's map, else 0 (pose fast path). */
+  readonly mapSign = new Int8Array(64);
+  /**
+   * Per residual block: residual, Jacobian and map views sized exactly for
+   * it. Blocks of equal sizes share one view (or one array of map views),
+   * so a problem with thousands of blocks creates only a handful.
+   */
+  readonly rViews: Float64Array[];
+  readonly jViews: Float64Array[];
+  readonly mapViews: Float64Array[][];
+
+  constructor(problem: Problem, L: ProblemLayout) {
+    const p = L.maxInner;
+    const t = L.maxTangent;
+    this.r = new Float64Array(L.maxResiduals);
+    this.J = new Float64Array(L.maxResiduals * p);
+    this.JT = new Float64Array(L.maxResiduals * p);
+    this.A = new Float64Array(p * p);
+    this.b = new Float64Array(p);
+    this.B = new Float64Array(t * t);
+    this.gk = new Float64Array(t);
+    this.stackIndex = L.couplings.map((cs) => {
+      const out: number[] = [];
+      for (const c of cs) {
+        const o = L.globalOffset[c]!;
+        for (let v = 0; v < problem.parameterBlock(c).tangentSize; v++) out.push(o + v);
+      }
+      return Int32Array.from(out);
+    });
+    let maxArity = 0;
+    for (let i = 0; i < problem.numResidualBlocks; i++) maxArity = Math.max(maxArity, problem.residualBlock(i).parameterBlocks.length);
+    const mapScratch = Array.from({ length: maxArity }, () => new Float64Array(p * t));
+    this.Tl = Array.from({ length: maxArity }, () => new Float64Array(p * t));
+    const nb = problem.numResidualBlocks;
+    this.pose6 = new Uint8Array(nb);
+    this.rViews = new Array<Float64Array>(nb);
+    this.jViews = new Array<Float64Array>(nb);
+    this.mapViews = new Array<Float64Array[]>(nb);
+    const rBySize = new Map<number, Float64Array>();
+    const jBySize = new Map<number, Float64Array>();
+    const mapsBySignature = new Map<string, Float64Array[]>();
+    const noMaps: Float64Array[] = [];
+    for (let i = 0; i < nb; i++) {
+      const rb = problem.residualBlock(i);
+      const m = rb.numResiduals;
+      const mj = m * rb.innerSize;
+      let rv = rBySize.get(m);
+      if (!rv) rBySize.set(m, (rv = this.r.subarray(0, m)));
+      let jv = jBySize.get(mj);
+      if (!jv) jBySize.set(mj, (jv = this.J.subarray(0, mj)));
+      this.rViews[i] = rv;
+      this.jViews[i] = jv;
+      if (!rb.mapped) {
+        this.mapViews[i] = noMaps;
+        continue;
+      }
+      const ps = rb.parameterBlocks;
+      let sig = `${rb.innerSize}`;
+      let all6 = rb.innerSize === 6 && ps.length <= 64;
+      for (let k = 0; k < ps.length; k++) {
+        const ts = problem.parameterBlock(ps[k]!).tangentSize;
+        sig += `,${ts}`;
+        if (L.posKind[i]![k] !== POS_CONSTANT && ts !== 6) all6 = false;
+      }
+      this.pose6[i] = all6 ? 1 : 0;
+      let mv = mapsBySignature.get(sig);
+      if (!mv) {
+        mv = ps.map((pb, k) => mapScratch[k]!.subarray(0, rb.innerSize * problem.parameterBlock(pb).tangentSize));
+        mapsBySignature.set(sig, mv);
+      }
+      this.mapViews[i] = mv;
+    }
+  }
+}
+
+/** linearizeBlock() result for a block whose evaluate() returned false (a cost is never −∞). */
+const NOT_EVALUABLE = -Infinity;
+
+const workspaces = new WeakMap<ProblemLayout, Workspace>();
+
+function workspaceFor(problem: Problem, L: ProblemLayout): Workspace {
+  let ws = workspaces.get(L);
+  if (!ws) workspaces.set(L, (ws = new Workspace(problem, L)));
+  return ws;
+}
+
 export class NormalEquations {
   readonly layout: ProblemLayout;
-  /** ½ Σ ρ at the last linearize()/evaluateCost(). */
-  cost = 0;
+  /** ½ Σ ρ at the last linearize()/evaluateCost() (NaN before: also keeps the field a double from the start). */
+  cost = NaN;
   /** Gradient g = J̃ᵀr̃ over the global tangent vector (length N). */
   readonly g: Float64Array;
   /** Diagonal of the undamped H over the global tangent vector. */
@@ -255,30 +379,11 @@ export class NormalEquations {
   readonly rhs: Float64Array;
   /** Per-eliminated-block Cholesky factors of H_ee + λD_e from the last reduce(). */
   private readonly Lee: Float64Array;
-  private readonly r: Float64Array;
-  private readonly J: Float64Array;
-  private readonly A: Float64Array;
-  private readonly b: Float64Array;
-  private readonly Tl: Float64Array[];
-  private readonly JT: Float64Array;
-  private readonly B: Float64Array;
-  private readonly B2 = new Float64Array(36);
-  private readonly gk: Float64Array;
+  private readonly ws: Workspace;
   private readonly z: Float64Array;
   private readonly Y: Float64Array;
   private readonly X: Float64Array;
   private readonly P: Float64Array;
-  /** Per eliminated block: global kept column of each stacked coupling column. */
-  private readonly stackIndex: Int32Array[];
-  private readonly rho = new Float64Array(3);
-  private readonly fusedCost = new Float64Array(1);
-  private readonly mapViews: Float64Array[][];
-  /** Per residual block: 1 when it is mapped, 6 inner columns and every non-constant position a 6-dim block (the pose fast path). */
-  private readonly pose6: Uint8Array;
-  /** Per position of the current block: +1 / −1 when its map equals ± the reference position's map, else 0 (pose fast path). */
-  private readonly mapSign = new Int8Array(64);
-  private readonly rViews: Float64Array[];
-  private readonly jViews: Float64Array[];
 
   constructor(readonly problem: Problem) {
     const L = problem.layout();
@@ -293,55 +398,12 @@ export class NormalEquations {
     this.Hee = new Float64Array(L.heeTotal);
     this.Lee = new Float64Array(L.heeTotal);
     this.Hec = new Float64Array(L.hecTotal);
-    const p = L.maxInner;
+    this.ws = workspaceFor(problem, L);
     const t = L.maxTangent;
-    this.r = new Float64Array(L.maxResiduals);
-    this.J = new Float64Array(L.maxResiduals * p);
-    this.JT = new Float64Array(L.maxResiduals * p);
-    this.A = new Float64Array(p * p);
-    this.b = new Float64Array(p);
-    this.B = new Float64Array(t * t);
-    this.gk = new Float64Array(t);
     this.z = new Float64Array(t);
     this.Y = new Float64Array(t * L.maxCouplingWidth);
     this.X = new Float64Array(t * L.maxCouplingWidth);
     this.P = new Float64Array(L.maxCouplingWidth * L.maxCouplingWidth);
-    this.stackIndex = L.couplings.map((cs) => {
-      const out: number[] = [];
-      for (const c of cs) {
-        const o = L.globalOffset[c]!;
-        for (let v = 0; v < problem.parameterBlock(c).tangentSize; v++) out.push(o + v);
-      }
-      return Int32Array.from(out);
-    });
-    // Views sized exactly per residual block, created once so evaluation allocates nothing.
-    let maxArity = 0;
-    for (let i = 0; i < problem.numResidualBlocks; i++) maxArity = Math.max(maxArity, problem.residualBlock(i).parameterBlocks.length);
-    const mapScratch = Array.from({ length: maxArity }, () => new Float64Array(p * t));
-    this.Tl = Array.from({ length: maxArity }, () => new Float64Array(p * t));
-    this.pose6 = new Uint8Array(problem.numResidualBlocks);
-    for (let i = 0; i < problem.numResidualBlocks; i++) {
-      const rb = problem.residualBlock(i);
-      if (!rb.mapped || rb.innerSize !== 6 || rb.parameterBlocks.length > 64) continue;
-      let ok = true;
-      rb.parameterBlocks.forEach((pb, k) => {
-        if (L.posKind[i]![k] !== POS_CONSTANT && problem.parameterBlock(pb).tangentSize !== 6) ok = false;
-      });
-      this.pose6[i] = ok ? 1 : 0;
-    }
-    this.mapViews = [];
-    this.rViews = [];
-    this.jViews = [];
-    for (let i = 0; i < problem.numResidualBlocks; i++) {
-      const rb = problem.residualBlock(i);
-      this.rViews.push(this.r.subarray(0, rb.numResiduals));
-      this.jViews.push(this.J.subarray(0, rb.numResiduals * rb.innerSize));
-      this.mapViews.push(
-        rb.mapped
-          ? rb.parameterBlocks.map((pb, k) => mapScratch[k]!.subarray(0, rb.innerSize * problem.parameterBlock(pb).tangentSize))
-          : [],
-      );
-    }
   }
 
   /**
@@ -351,14 +413,14 @@ export class NormalEquations {
    */
   evaluateCost(): EvaluationStatus {
     const pr = this.problem;
+    const ws = this.ws;
     let cost = 0;
-    const rho = this.rho;
     for (let i = 0; i < pr.numResidualBlocks; i++) {
       const rb = pr.residualBlock(i);
-      const r = this.rViews[i]!;
+      const r = ws.rViews[i]!;
       if (!rb.evaluate(pr.residualParams(i), r, null, null)) return { ok: false, residualBlock: i };
       const m = rb.numResiduals;
-      cost += groupCost(r, m, rb.lossGroupSize ?? m, rb.loss, rho);
+      cost += groupCost(r, m, rb.lossGroupSize ?? m, rb.loss, ws.rho);
     }
     if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
     this.cost = cost;
@@ -367,47 +429,61 @@ export class NormalEquations {
 
   /** Evaluates residuals and Jacobians and assembles H, g (see file comment). */
   linearize(): EvaluationStatus {
-    const pr = this.problem;
-    const L = this.layout;
-    const nc = L.numKept;
+    const n = this.problem.numResidualBlocks;
     this.g.fill(0);
     this.Hcc.fill(0);
     this.Hee.fill(0);
     this.Hec.fill(0);
-    const A = this.A;
-    const bv = this.b;
-    const rho = this.rho;
     let cost = 0;
-    for (let i = 0; i < pr.numResidualBlocks; i++) {
-      const rb = pr.residualBlock(i);
-      const r = this.rViews[i]!;
-      const J = this.jViews[i]!;
-      const maps = rb.mapped ? this.mapViews[i]! : null;
-      const p = rb.innerSize;
-      const fused = rb.linearizeInner?.(pr.residualParams(i), A, bv, maps, rho, this.fusedCost);
-      if (fused === false) return { ok: false, residualBlock: i };
-      if (fused === true) cost += this.fusedCost[0]!;
-      else {
-        if (!rb.evaluate(pr.residualParams(i), r, J, maps)) return { ok: false, residualBlock: i };
-        const m = rb.numResiduals;
-        const gs = rb.lossGroupSize ?? m;
-        const loss = rb.loss;
-        if (loss) cost += weightGroups(r, J, m, p, gs, loss, rho);
-        else {
-          let ss = 0;
-          for (let q = 0; q < m; q++) ss += r[q]! * r[q]!;
-          cost += 0.5 * ss;
-        }
-        if (p === 6) normal6(J, r, m, A, bv);
-        else normalGeneric(J, r, m, p, A, bv, this.JT);
-      }
-      if (this.pose6[i] === 1) this.scatterPose6(i, rb.parameterBlocks, maps!, nc);
-      else this.scatter(i, rb.parameterBlocks, p, maps, nc);
+    // One small method per block rather than one large loop body: the
+    // optimiser compiles it whole after a few blocks, instead of
+    // on-stack-replacing a loop whose later code has never run.
+    for (let i = 0; i < n; i++) {
+      const c = this.linearizeBlock(i);
+      if (c === NOT_EVALUABLE) return { ok: false, residualBlock: i };
+      cost += c;
     }
     if (!Number.isFinite(cost)) return { ok: false, residualBlock: -1 };
     this.cost = cost;
     this.applyFixedAndDiagonal();
     return { ok: true };
+  }
+
+  /** Adds residual block i to H and g; returns its cost ½ Σ ρ, or NOT_EVALUABLE. */
+  private linearizeBlock(i: number): number {
+    const pr = this.problem;
+    const ws = this.ws;
+    const rb = pr.residualBlock(i);
+    const A = ws.A;
+    const bv = ws.b;
+    const maps = rb.mapped ? ws.mapViews[i]! : null;
+    const p = rb.innerSize;
+    const params = pr.residualParams(i);
+    let cost: number;
+    const fused = rb.linearizeInner?.(params, A, bv, maps, ws.rho, ws.fusedCost);
+    if (fused === false) return NOT_EVALUABLE;
+    if (fused === true) cost = ws.fusedCost[0]!;
+    else {
+      const r = ws.rViews[i]!;
+      const J = ws.jViews[i]!;
+      if (!rb.evaluate(params, r, J, maps)) return NOT_EVALUABLE;
+      const m = rb.numResiduals;
+      const gs = rb.lossGroupSize ?? m;
+      const loss = rb.loss;
+      if (loss) cost = weightGroups(r, J, m, p, gs, loss, ws.rho);
+      else {
+        let ss = 0;
+        for (let q = 0; q < m; q++) ss += r[q]! * r[q]!;
+        cost = 0.5 * ss;
+      }
+      if (p === 6) normal6(J, r, m, A, bv);
+      else normalGeneric(J, r, m, p, A, bv, ws.JT);
+    }
+    const nc = this.layout.numKept;
+    if (ws.pose6[i] === 1) this.scatterPose6(i, rb.parameterBlocks, maps!, nc);
+    else this.scatter(i, rb.parameterBlocks, p, maps, nc);
+    // A NaN cost is passed on: the caller's finiteness check reports it.
+    return cost;
   }
 
   /**
@@ -416,19 +492,24 @@ export class NormalEquations {
    * equals ± an earlier position's map (e.g. T_ref_cam⁻¹ and T_ref_target in
    * one chain: M_cam = −M_target) reuses that position's products:
    * M_k = s_k M_r, M_l = s_l M_r ⇒ M_kᵀ A M_l = s_k s_l M_rᵀ A M_r.
+   * When M_r is exactly ±I (a block that expresses A in that position's own
+   * tangent, as the rig's view residual does) no product is formed at all.
    */
   private scatterPose6(i: number, ps: readonly number[], maps: Float64Array[], nc: number): void {
     const L = this.layout;
     const kinds = L.posKind[i]!;
     const hecs = L.posHec[i]!;
-    const A = this.A;
-    const b = this.b;
+    const ws = this.ws;
+    const A = ws.A;
+    const b = ws.b;
     const g = this.g;
-    const Tl = this.Tl;
+    const Tl = ws.Tl;
     const n = ps.length;
-    const sign = this.mapSign;
-    // Group positions by their map up to sign; the first position of a group computes T = A M and B = Mᵀ A M.
+    const sign = ws.mapSign;
+    // Group positions by their map up to sign; the first position of a group computes T = A M.
+    // When the reference map is ±I (identityScale), T = ±A and B_ref = A need no products.
     let ref = -1;
+    let refScale = 0;
     for (let l = 0; l < n; l++) {
       sign[l] = 0;
       if (kinds[l] === POS_CONSTANT) continue;
@@ -445,22 +526,34 @@ export class NormalEquations {
         }
         if (same) { sign[l] = 1; continue; }
         if (neg) { sign[l] = -1; continue; }
-      } else ref = l;
-      mul66(A, maps[l]!, Tl[l]!);
+        mul66(A, maps[l]!, Tl[l]!);
+      } else {
+        ref = l;
+        sign[l] = 1;
+        refScale = identityScale(maps[l]!);
+        if (refScale === 0) mul66(A, maps[l]!, Tl[l]!);
+      }
     }
-    const B = this.B;
+    const B = ws.B;
     let bRef = false;
     for (let k = 0; k < n; k++) {
       const kk = kinds[k]!;
       if (kk === POS_CONSTANT) continue;
       const bk = ps[k]!;
-      const sk = sign[k]! === 0 ? 1 : sign[k]!;
-      const Mk = sign[k]! === 0 ? maps[k]! : maps[ref]!;
+      const sk = sign[k]!;
+      const inRefK = sk !== 0;
+      const Mk = inRefK ? maps[ref]! : maps[k]!;
+      const sMk = inRefK ? sk : 1;
       const gOff = L.globalOffset[bk]!;
-      for (let u = 0; u < 6; u++) {
-        let sum = 0;
-        for (let a = 0; a < 6; a++) sum += Mk[a * 6 + u]! * b[a]!;
-        g[gOff + u] = g[gOff + u]! + sk * sum;
+      if (inRefK && refScale !== 0) {
+        const s = sk * refScale;
+        for (let u = 0; u < 6; u++) g[gOff + u] = g[gOff + u]! + s * b[u]!;
+      } else {
+        for (let u = 0; u < 6; u++) {
+          let sum = 0;
+          for (let a = 0; a < 6; a++) sum += Mk[a * 6 + u]! * b[a]!;
+          g[gOff + u] = g[gOff + u]! + sMk * sum;
+        }
       }
       for (let l = 0; l < n; l++) {
         const kl = kinds[l]!;
@@ -470,23 +563,32 @@ export class NormalEquations {
         const dest = this.dest;
         const off = this.destOff;
         const stride = this.destStride;
-        if (sign[k] !== 0 || k === ref) {
-          if (sign[l] !== 0 || l === ref) {
-            // Both maps are ± M_ref: B_ref = M_refᵀ A M_ref, computed once.
+        const sl = sign[l]!;
+        const inRefL = sl !== 0;
+        if (inRefK && inRefL) {
+          // Both maps are ± M_ref: B_ref = M_refᵀ A M_ref (= A when M_ref = ±I), computed once.
+          if (refScale !== 0) addScaled66(A, sk * sl, dest, off, stride);
+          else {
             if (!bRef) {
               mulT66(maps[ref]!, Tl[ref]!, B);
               bRef = true;
             }
-            const s2 = (k === ref ? 1 : sign[k]!) * (l === ref ? 1 : sign[l]!);
-            addScaled66(B, s2, dest, off, stride);
-            continue;
+            addScaled66(B, sk * sl, dest, off, stride);
           }
+          continue;
         }
-        // General pair: M_kᵀ (A M_l), with M_l's product from its group.
-        const sl = sign[l]! === 0 ? 1 : sign[l]!;
-        const T = sign[l]! === 0 ? Tl[l]! : Tl[ref]!;
-        mulT66(Mk, T, this.B2);
-        addScaled66(this.B2, sk * sl, dest, off, stride);
+        // General pair: M_kᵀ (A M_l), with A M_l from l's group (±A when that group's map is ±I).
+        const sL = inRefL ? sl : 1;
+        if (inRefL && refScale !== 0) {
+          mulT66(Mk, A, ws.B2);
+          addScaled66(ws.B2, sMk * sL * refScale, dest, off, stride);
+        } else if (inRefK && refScale !== 0) {
+          // M_k = sk·refScale·I: M_kᵀ T_l = sk·refScale·T_l.
+          addScaled66(Tl[l]!, sk * refScale * sL, dest, off, stride);
+        } else {
+          mulT66(Mk, inRefL ? Tl[ref]! : Tl[l]!, ws.B2);
+          addScaled66(ws.B2, sMk * sL, dest, off, stride);
+        }
       }
     }
   }
@@ -526,12 +628,13 @@ export class NormalEquations {
     const kinds = L.posKind[i]!;
     const cols = L.posColumn[i]!;
     const hecs = L.posHec[i]!;
-    const A = this.A;
-    const b = this.b;
-    const B = this.B;
-    const gk = this.gk;
+    const ws = this.ws;
+    const A = ws.A;
+    const b = ws.b;
+    const B = ws.B;
+    const gk = ws.gk;
     const g = this.g;
-    const Tl = this.Tl;
+    const Tl = ws.Tl;
     const n = ps.length;
     // T_l = A M_l (p x t_l), once per position.
     if (maps) {
@@ -671,69 +774,83 @@ export class NormalEquations {
    * factors of every H_ee + λD_e for backSubstitute().
    */
   reduce(lambda: number, D: Float64Array): LinearSolveStatus {
-    const pr = this.problem;
     const L = this.layout;
     const nc = L.numKept;
     const S = this.S;
     const rhs = this.rhs;
     const g = this.g;
-    const Hec = this.Hec;
-    const Hee = this.Hee;
-    const Lee = this.Lee;
     S.set(this.Hcc);
     for (let i = 0; i < nc; i++) {
       S[i * nc + i] = S[i * nc + i]! + lambda * D[i]!;
       rhs[i] = -g[i]!;
     }
+    // One call per eliminated block (see linearize() on why the loop body is a method).
+    for (let ei = 0; ei < L.elimBlocks.length; ei++) {
+      const col = this.eliminate(ei, lambda, D);
+      if (col >= 0) return { ok: false, reason: 'eliminated_block_not_positive_definite', blockId: L.elimBlocks[ei]!, column: col };
+    }
+    mirrorUpper(S, nc);
+    return { ok: true };
+  }
+
+  /**
+   * Factors H_ee + λD_e of eliminated block ei into Lee and subtracts its
+   * contribution from S and rhs. Returns −1, or the column at which the
+   * block is not positive definite.
+   */
+  private eliminate(ei: number, lambda: number, D: Float64Array): number {
+    const pr = this.problem;
+    const L = this.layout;
+    const nc = L.numKept;
+    const rhs = this.rhs;
+    const g = this.g;
+    const Hec = this.Hec;
+    const Hee = this.Hee;
+    const Lee = this.Lee;
     const z = this.z;
     const Y = this.Y;
     const X = this.X;
-    const P = this.P;
-    for (let ei = 0; ei < L.elimBlocks.length; ei++) {
-      const id = L.elimBlocks[ei]!;
-      const te = pr.parameterBlock(id).tangentSize;
-      const ho = L.heeOffset[ei]!;
-      const go = L.globalOffset[id]!;
-      // Factor H_ee + λD_e into Lee (lower triangle).
-      for (let k = 0; k < te * te; k++) Lee[ho + k] = Hee[ho + k]!;
-      for (let u = 0; u < te; u++) Lee[ho + u * te + u] = Lee[ho + u * te + u]! + lambda * D[go + u]!;
-      const col = choleskyAt(Lee, ho, te);
-      if (col >= 0) return { ok: false, reason: 'eliminated_block_not_positive_definite', blockId: id, column: col };
-      // z = (H_ee + λD_e)⁻¹ g_e
-      for (let u = 0; u < te; u++) z[u] = g[go + u]!;
-      solveRowsAt(Lee, ho, te, z, 1);
-      // Stacked couplings: Y = [H_ec_1 … H_ec_n] (te x W), X = Yᵀ (W x te), idx = global column of each stacked column.
-      const idx = this.stackIndex[ei]!;
-      const W = idx.length;
-      if (W === 0) continue;
-      const couplings = L.couplings[ei]!;
-      const offs = L.hecOffsets[ei]!;
-      let yOff = 0;
-      for (let j = 0; j < couplings.length; j++) {
-        const tc = pr.parameterBlock(couplings[j]!).tangentSize;
-        const h = offs[j]!;
-        for (let u = 0; u < te; u++) {
-          for (let v = 0; v < tc; v++) {
-            const val = Hec[h + u * tc + v]!;
-            Y[u * W + yOff + v] = val;
-            X[(yOff + v) * te + u] = val;
-          }
+    const id = L.elimBlocks[ei]!;
+    const te = pr.parameterBlock(id).tangentSize;
+    const ho = L.heeOffset[ei]!;
+    const go = L.globalOffset[id]!;
+    // Factor H_ee + λD_e into Lee (lower triangle).
+    for (let k = 0; k < te * te; k++) Lee[ho + k] = Hee[ho + k]!;
+    for (let u = 0; u < te; u++) Lee[ho + u * te + u] = Lee[ho + u * te + u]! + lambda * D[go + u]!;
+    const col = choleskyAt(Lee, ho, te);
+    if (col >= 0) return col;
+    // z = (H_ee + λD_e)⁻¹ g_e
+    for (let u = 0; u < te; u++) z[u] = g[go + u]!;
+    solveRowsAt(Lee, ho, te, z, 1);
+    // Stacked couplings: Y = [H_ec_1 … H_ec_n] (te x W), X = Yᵀ (W x te), idx = global column of each stacked column.
+    const idx = this.ws.stackIndex[ei]!;
+    const W = idx.length;
+    if (W === 0) return -1;
+    const couplings = L.couplings[ei]!;
+    const offs = L.hecOffsets[ei]!;
+    let yOff = 0;
+    for (let j = 0; j < couplings.length; j++) {
+      const tc = pr.parameterBlock(couplings[j]!).tangentSize;
+      const h = offs[j]!;
+      for (let u = 0; u < te; u++) {
+        for (let v = 0; v < tc; v++) {
+          const val = Hec[h + u * tc + v]!;
+          Y[u * W + yOff + v] = val;
+          X[(yOff + v) * te + u] = val;
         }
-        yOff += tc;
       }
-      // rhs_c += H_ecᵀ z
-      for (let a = 0; a < W; a++) {
-        let sum = 0;
-        for (let u = 0; u < te; u++) sum += X[a * te + u]! * z[u]!;
-        rhs[idx[a]!] = rhs[idx[a]!]! + sum;
-      }
-      // Y ← (H_ee + λD_e)⁻¹ Y, row operations on all W columns at once.
-      solveRowsAt(Lee, ho, te, Y, W);
-      schurSubtract(X, Y, P, S, idx, W, te, nc);
+      yOff += tc;
     }
-    // Mirror the upper triangle into the lower one (used by the Cholesky).
-    for (let r = 1; r < nc; r++) for (let c = 0; c < r; c++) S[r * nc + c] = S[c * nc + r]!;
-    return { ok: true };
+    // rhs_c += H_ecᵀ z
+    for (let a = 0; a < W; a++) {
+      let sum = 0;
+      for (let u = 0; u < te; u++) sum += X[a * te + u]! * z[u]!;
+      rhs[idx[a]!] = rhs[idx[a]!]! + sum;
+    }
+    // Y ← (H_ee + λD_e)⁻¹ Y, row operations on all W columns at once.
+    solveRowsAt(Lee, ho, te, Y, W);
+    schurSubtract(X, Y, this.P, this.S, idx, W, te, nc);
+    return -1;
   }
 
   /**
