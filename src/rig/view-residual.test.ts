@@ -4,7 +4,7 @@
  */
 import { describe, expect, test } from 'vitest';
 import { cameraModel } from '../camera/registry.js';
-import { compose, se3Exp, poseToArray12, se3LeftManifold, type Pose } from '../geometry/se3.js';
+import { compose, se3Exp, poseIdentity, poseToArray12, se3LeftManifold, type Pose } from '../geometry/se3.js';
 import { expectMatrixClose, gaussian, numericJacobian, rng } from '../testing/numeric.js';
 import { ViewResidual, type ChainFactor } from './view-residual.js';
 import { cauchyLoss, huberLoss } from '../solver/loss.js';
@@ -257,5 +257,42 @@ describe('ViewResidual fused linearisation', () => {
     });
     const params = [poseToArray12(pose(0, 0)), Float64Array.of(500, 500, 320, 240)];
     expect(block.linearizeInner(params, new Float64Array(100), new Float64Array(10), null, new Float64Array(3), new Float64Array(1))).toBeUndefined();
+  });
+});
+
+describe('ViewResidual chain C⁻¹ · F shortcut', () => {
+  test('gives the same engine contributions as the general chain walk', () => {
+    // The general walk is taken when the chain carries a constant identity factor in front.
+    const model = cameraModel('pinhole');
+    const T_ref_cam = pose(0.3, -0.2, [0.2, 0.1, 0.05]);
+    const T_ref_target = compose(T_ref_cam, pose(0.1, 0.2, [0.1, -0.1, 2]));
+    const params = [poseToArray12(T_ref_cam), poseToArray12(T_ref_target)];
+    const spec = {
+      model,
+      parameterBlocks: [0, 1],
+      intrinsicsParam: -1,
+      intrinsics: Float64Array.of(500, 505, 320, 240),
+      points: Float64Array.of(0, 0, 0, 0.2, 0, 0, 0, 0.2, 0, 0.2, 0.2, 0.01),
+      pixels: Float64Array.of(330, 250, 380, 245, 325, 300, 390, 310),
+      invSigma: Float64Array.of(1, 2, 1, 0.5),
+    };
+    const short = new ViewResidual({ ...spec, chain: [{ param: 0, sign: -1 }, { param: 1, sign: 1 }] });
+    const general = new ViewResidual({
+      ...spec,
+      chain: [{ param: -1, sign: 1, constant: poseIdentity() }, { param: 0, sign: -1 }, { param: 1, sign: 1 }],
+    });
+    const run = (block: ViewResidual) => {
+      const A = new Float64Array(36);
+      const b = new Float64Array(6);
+      const maps = [new Float64Array(36), new Float64Array(36)];
+      const out = new Float64Array(1);
+      expect(block.linearizeInner(params, A, b, maps, new Float64Array(3), out)).toBe(true);
+      return { blocks: [0, 1].flatMap((k) => [0, 1].map((l) => mapped(maps[k]!, A, maps[l]!))), g: [0, 1].map((k) => mappedVector(maps[k]!, b)), cost: out[0]! };
+    };
+    const s = run(short);
+    const g = run(general);
+    expect(s.cost).toBeCloseTo(g.cost, 9);
+    s.blocks.forEach((B, q) => expectMatrixClose(B, g.blocks[q]!, { rel: 1e-12 }, `block ${q}`));
+    s.g.forEach((v, q) => expectMatrixClose(v, g.g[q]!, { rel: 1e-12 }, `gradient ${q}`));
   });
 });

@@ -86,6 +86,7 @@ const SCRATCH = {
   /** G_k per chain position (see fillRelativeMaps). */
   G: [] as Pose[],
   Ginv: poseIdentity(),
+  pairG: poseIdentity(),
 };
 
 export class ViewResidual implements ResidualBlock {
@@ -108,12 +109,23 @@ export class ViewResidual implements ResidualBlock {
   private readonly pc = SCRATCH.pc;
   private readonly Jp = SCRATCH.Jp;
   private readonly Ji: Float64Array;
+  /**
+   * Positions of C and F when the chain is C⁻¹ · F with both factors
+   * parameter blocks (T_ref_cam⁻¹ · T_ref_target, the moving-target rig),
+   * else −1: linearizeInner then composes the pose and its maps inline.
+   */
+  private readonly pairCam: number;
+  private readonly pairTarget: number;
   /** spec.chain with every factor of one shape (constant: null when param ≥ 0), so the hot loops see one object layout. */
   private readonly chain: { param: number; sign: number; constant: Pose | null }[];
 
   constructor(spec: ViewResidualSpec) {
     this.spec = spec;
     this.chain = spec.chain.map((f) => ({ param: f.param, sign: f.sign, constant: f.constant ?? null }));
+    const c = spec.chain;
+    const pair = c.length === 2 && c[0]!.sign === -1 && c[1]!.sign === 1 && c[0]!.param >= 0 && c[1]!.param >= 0 && c[0]!.param !== c[1]!.param;
+    this.pairCam = pair ? c[0]!.param : -1;
+    this.pairTarget = pair ? c[1]!.param : -1;
     this.numResiduals = 2 * (spec.pixels.length / 2);
     this.parameterBlocks = spec.parameterBlocks;
     this.nIntr = spec.intrinsicsParam >= 0 ? spec.model.numParams : 0;
@@ -224,19 +236,59 @@ export class ViewResidual implements ResidualBlock {
     const { model, points, pixels, invSigma } = this.spec;
     const intr = this.spec.intrinsics;
     const loss = this.loss;
-    const X = this.composePose(params, this.X);
+    const X = this.X;
     if (maps === null) {
+      this.composePose(params, X);
       const cost = reprojectionNormalEquations(model, intr, X, points, pixels, invSigma, loss, A, b, null);
       if (cost < 0) return false;
       out[0] = 0.5 * cost;
       return true;
     }
+    let G: Pose;
+    if (this.pairCam >= 0) G = this.pairPoses(params, X, maps);
+    else {
+      this.composePose(params, X);
+      G = this.fillRelativeMaps(params, maps);
+    }
     const cost = reprojectionNormalEquations(model, intr, X, points, pixels, invSigma, loss, SCRATCH.Ax, SCRATCH.bx, null);
     if (cost < 0) return false;
     out[0] = 0.5 * cost;
-    const G = this.fillRelativeMaps(params, maps);
     adjointCongruence(G, SCRATCH.Ax, SCRATCH.bx, A, b);
     return true;
+  }
+
+  /**
+   * The chain C⁻¹ · F (see pairCam) in one step: G = C⁻¹ = (R_Cᵀ, −R_Cᵀ t_C),
+   * X = G · F = (R_Cᵀ R_F, R_Cᵀ (t_F − t_C)); the maps of C and F are then
+   * −I and I (fillRelativeMaps gives the same for this chain). Writes X and
+   * returns G.
+   */
+  private pairPoses(params: readonly Float64Array[], X: Pose, maps: Float64Array[]): Pose {
+    const c = params[this.pairCam]!;
+    const f = params[this.pairTarget]!;
+    const G = SCRATCH.pairG;
+    const GR = G.R;
+    const XR = X.R;
+    for (let i = 0; i < 3; i++) {
+      const r0 = c[i]!, r1 = c[3 + i]!, r2 = c[6 + i]!; // row i of R_Cᵀ
+      GR[3 * i] = r0;
+      GR[3 * i + 1] = r1;
+      GR[3 * i + 2] = r2;
+      for (let j = 0; j < 3; j++) XR[3 * i + j] = r0 * f[j]! + r1 * f[3 + j]! + r2 * f[6 + j]!;
+      G.t[i] = -(r0 * c[9]! + r1 * c[10]! + r2 * c[11]!);
+      X.t[i] = r0 * (f[9]! - c[9]!) + r1 * (f[10]! - c[10]!) + r2 * (f[11]! - c[11]!);
+    }
+    const Mc = maps[this.pairCam]!;
+    const Mf = maps[this.pairTarget]!;
+    for (let q = 0; q < 36; q++) {
+      Mc[q] = 0;
+      Mf[q] = 0;
+    }
+    for (let q = 0; q < 36; q += 7) {
+      Mc[q] = -1;
+      Mf[q] = 1;
+    }
+    return G;
   }
 
   /**

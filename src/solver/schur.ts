@@ -17,6 +17,9 @@
  *   S  = H_cc + λD_c − Σ_e H_ceᵀ… = H_cc + λD_c − Σ_e H_ecᵀ (H_ee + λD_e)⁻¹ H_ec
  *   s  = −g_c + Σ_e H_ecᵀ (H_ee + λD_e)⁻¹ g_e
  *   S δ_c = s (dense Cholesky),
+ * each eliminated block through its factor H_ee + λD_e = L Lᵀ: with
+ * V = L⁻¹ H_ec and w = L⁻¹ g_e its terms are Vᵀ V and Vᵀ w (forward
+ * substitution only; the Gram update writes S's upper triangle),
  *   δ_e = (H_ee + λD_e)⁻¹ (−g_e − H_ec δ_c)  (back-substitution).
  * The cost of one linearisation is linear in the number of residuals; the
  * Schur update is Σ_e (#couplings_e)² small products, never an
@@ -166,8 +169,8 @@ function choleskyAt(M: Float64Array, off: number, n: number): number {
   return -1;
 }
 
-/** Solves L Lᵀ X = B in place for B (n x w, row-major, rows of length w), L at M[off…]. */
-function solveRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w: number): void {
+/** Solves L X = B in place for B (n x w, row-major, rows of length w), L (lower) at M[off…]. */
+function forwardRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w: number): void {
   for (let i = 0; i < n; i++) {
     const bi = i * w;
     for (let k = 0; k < i; k++) {
@@ -179,6 +182,11 @@ function solveRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w
     const inv = 1 / M[off + i * n + i]!;
     for (let v = 0; v < w; v++) B[bi + v] = B[bi + v]! * inv;
   }
+}
+
+/** Solves L Lᵀ X = B in place for B (n x w, row-major, rows of length w), L at M[off…]. */
+function solveRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w: number): void {
+  forwardRowsAt(M, off, n, B, w);
   for (let i = n - 1; i >= 0; i--) {
     const bi = i * w;
     for (let k = i + 1; k < n; k++) {
@@ -193,21 +201,24 @@ function solveRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w
 }
 
 /**
- * P = X Y (W x W, upper triangle), then S[idx_a, idx_v] −= P_av for v ≥ a.
- * X is W x te, Y is te x W; idx is ascending so only S's upper triangle is written.
+ * P = Vᵀ V (W x W, upper triangle) for V te x W, then S[idx_a, idx_b] −= P_ab
+ * for b ≥ a. idx is ascending so only S's upper triangle is written.
  */
-function schurSubtract(X: Float64Array, Y: Float64Array, P: Float64Array, S: Float64Array, idx: Int32Array, W: number, te: number, nc: number): void {
+function gramSubtract(V: Float64Array, P: Float64Array, S: Float64Array, idx: Int32Array, W: number, te: number, nc: number): void {
+  for (let a = 0; a < W; a++) for (let c = a; c < W; c++) P[a * W + c] = 0;
+  for (let u = 0; u < te; u++) {
+    const row = u * W;
+    for (let a = 0; a < W; a++) {
+      const va = V[row + a]!;
+      if (va === 0) continue;
+      const pa = a * W;
+      for (let c = a; c < W; c++) P[pa + c] = P[pa + c]! + va * V[row + c]!;
+    }
+  }
   for (let a = 0; a < W; a++) {
     const rowS = idx[a]! * nc;
     const pa = a * W;
-    for (let v = a; v < W; v++) P[pa + v] = 0;
-    for (let u = 0; u < te; u++) {
-      const xa = X[a * te + u]!;
-      if (xa === 0) continue;
-      const yu = u * W;
-      for (let v = a; v < W; v++) P[pa + v] = P[pa + v]! + xa * Y[yu + v]!;
-    }
-    for (let v = a; v < W; v++) S[rowS + idx[v]!] = S[rowS + idx[v]!]! - P[pa + v]!;
+    for (let c = a; c < W; c++) S[rowS + idx[c]!] = S[rowS + idx[c]!]! - P[pa + c]!;
   }
 }
 
@@ -382,7 +393,6 @@ export class NormalEquations {
   private readonly ws: Workspace;
   private readonly z: Float64Array;
   private readonly Y: Float64Array;
-  private readonly X: Float64Array;
   private readonly P: Float64Array;
 
   constructor(readonly problem: Problem) {
@@ -402,7 +412,6 @@ export class NormalEquations {
     const t = L.maxTangent;
     this.z = new Float64Array(t);
     this.Y = new Float64Array(t * L.maxCouplingWidth);
-    this.X = new Float64Array(t * L.maxCouplingWidth);
     this.P = new Float64Array(L.maxCouplingWidth * L.maxCouplingWidth);
   }
 
@@ -807,49 +816,41 @@ export class NormalEquations {
     const Hec = this.Hec;
     const Hee = this.Hee;
     const Lee = this.Lee;
-    const z = this.z;
-    const Y = this.Y;
-    const X = this.X;
+    const w = this.z;
+    const V = this.Y;
     const id = L.elimBlocks[ei]!;
     const te = pr.parameterBlock(id).tangentSize;
     const ho = L.heeOffset[ei]!;
     const go = L.globalOffset[id]!;
-    // Factor H_ee + λD_e into Lee (lower triangle).
+    // Factor H_ee + λD_e = L Lᵀ into Lee (lower triangle).
     for (let k = 0; k < te * te; k++) Lee[ho + k] = Hee[ho + k]!;
     for (let u = 0; u < te; u++) Lee[ho + u * te + u] = Lee[ho + u * te + u]! + lambda * D[go + u]!;
     const col = choleskyAt(Lee, ho, te);
     if (col >= 0) return col;
-    // z = (H_ee + λD_e)⁻¹ g_e
-    for (let u = 0; u < te; u++) z[u] = g[go + u]!;
-    solveRowsAt(Lee, ho, te, z, 1);
-    // Stacked couplings: Y = [H_ec_1 … H_ec_n] (te x W), X = Yᵀ (W x te), idx = global column of each stacked column.
     const idx = this.ws.stackIndex[ei]!;
     const W = idx.length;
     if (W === 0) return -1;
+    // w = L⁻¹ g_e and V = L⁻¹ [H_ec_1 … H_ec_n] (te x W, idx = global column of each stacked
+    // column). Then H_ecᵀ (L Lᵀ)⁻¹ g_e = Vᵀ w and H_ecᵀ (L Lᵀ)⁻¹ H_ec = Vᵀ V: forward
+    // substitution only, and the update of S is a Gram matrix (upper triangle).
+    for (let u = 0; u < te; u++) w[u] = g[go + u]!;
+    forwardRowsAt(Lee, ho, te, w, 1);
     const couplings = L.couplings[ei]!;
     const offs = L.hecOffsets[ei]!;
     let yOff = 0;
     for (let j = 0; j < couplings.length; j++) {
       const tc = pr.parameterBlock(couplings[j]!).tangentSize;
       const h = offs[j]!;
-      for (let u = 0; u < te; u++) {
-        for (let v = 0; v < tc; v++) {
-          const val = Hec[h + u * tc + v]!;
-          Y[u * W + yOff + v] = val;
-          X[(yOff + v) * te + u] = val;
-        }
-      }
+      for (let u = 0; u < te; u++) for (let v = 0; v < tc; v++) V[u * W + yOff + v] = Hec[h + u * tc + v]!;
       yOff += tc;
     }
-    // rhs_c += H_ecᵀ z
+    forwardRowsAt(Lee, ho, te, V, W);
     for (let a = 0; a < W; a++) {
       let sum = 0;
-      for (let u = 0; u < te; u++) sum += X[a * te + u]! * z[u]!;
+      for (let u = 0; u < te; u++) sum += V[u * W + a]! * w[u]!;
       rhs[idx[a]!] = rhs[idx[a]!]! + sum;
     }
-    // Y ← (H_ee + λD_e)⁻¹ Y, row operations on all W columns at once.
-    solveRowsAt(Lee, ho, te, Y, W);
-    schurSubtract(X, Y, this.P, this.S, idx, W, te, nc);
+    gramSubtract(V, this.P, this.S, idx, W, te, nc);
     return -1;
   }
 
