@@ -344,6 +344,23 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
 
   const viewCache = new Map<View, { rows: Int32Array; points: Float64Array; pixels: Float64Array; w: Float64Array; rejected: number; validated: boolean }>();
   const initialSquaredErrors: number[] = [];
+  /** A view's detections that are not rejected, with their points, pixels and weights; rebuilt only when more were rejected since. */
+  const currentViewData = (view: View) => {
+    let data = viewCache.get(view);
+    const viewRows = view.rows;
+    let rejectedNow = 0;
+    for (let k = 0; k < viewRows.length; k++) rejectedNow += rejectedRow[viewRows[k]!]!;
+    if (!data || data.rejected !== rejectedNow) {
+      const rows = new Int32Array(viewRows.length - rejectedNow);
+      for (let k = 0, at = 0; k < viewRows.length; k++) if (!rejectedRow[viewRows[k]!]) rows[at++] = viewRows[k]!;
+      const { points, pixels } = viewData(session, view, rows);
+      const w = new Float64Array(rows.length);
+      for (let k = 0; k < rows.length; k++) w[k] = invSigma[rows[k]!]!;
+      data = { rows, points, pixels, w, rejected: rejectedNow, validated: data?.validated ?? false };
+      viewCache.set(view, data);
+    }
+    return data;
+  };
   const build = (loss: LossFunction | undefined): BuiltProblem => {
     const problem = new Problem();
     const camIds = camValues.map((v, c) =>
@@ -377,20 +394,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       const key = poseKey(view);
       const fv = frameValues.get(key);
       if (!fv) continue;
-      // Per-view data is rebuilt only when detections of the view were rejected since the last build.
-      let data = viewCache.get(view);
-      const viewRows = view.rows;
-      let rejectedNow = 0;
-      for (let k = 0; k < viewRows.length; k++) rejectedNow += rejectedRow[viewRows[k]!]!;
-      if (!data || data.rejected !== rejectedNow) {
-        const rows = new Int32Array(viewRows.length - rejectedNow);
-        for (let k = 0, at = 0; k < viewRows.length; k++) if (!rejectedRow[viewRows[k]!]) rows[at++] = viewRows[k]!;
-        const { points, pixels } = viewData(session, view, rows);
-        const w = new Float64Array(rows.length);
-        for (let k = 0; k < rows.length; k++) w[k] = invSigma[rows[k]!]!;
-        data = { rows, points, pixels, w, rejected: rejectedNow, validated: data?.validated ?? false };
-        viewCache.set(view, data);
-      }
+      const data = currentViewData(view);
       const { rows, points, pixels, w } = data;
       // moving targets: T_cam_target = T_ref_cam⁻¹ · T_ref_target(frame, target)
       // fixed targets:  T_cam_target = T_ref_cam⁻¹ · T_origin_ref(frame)⁻¹ · T_origin_target
@@ -444,6 +448,33 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
       blockRows.push(rows);
     }
     return { problem, blocks, blockViews, blockRows, blockIds, intrIds, targetIds };
+  };
+
+  /**
+   * The problem for the next least-squares solve. When the same views are in
+   * use as in `prev` (no view dropped or re-admitted), prev is updated in
+   * place: views that lost detections get their remaining ones
+   * (setDetections + residualSizesChanged), and the robust loss is removed.
+   * The engine's layout and buffers are then reused instead of rebuilt. The
+   * result is the same problem a fresh build() would give.
+   */
+  const reuseOrBuild = (prev: BuiltProblem): BuiltProblem => {
+    let inUse = 0;
+    for (const view of views) if (view.status === 'used' && frameValues.has(poseKey(view))) inUse++;
+    if (inUse !== prev.blockViews.length || prev.blockViews.some((v) => v.status !== 'used')) return build(undefined);
+    let resized = false;
+    for (let b = 0; b < prev.blocks.length; b++) {
+      const block = prev.blocks[b]!;
+      const data = currentViewData(prev.blockViews[b]!);
+      if (data.rows !== prev.blockRows[b]) {
+        block.setDetections(data.points, data.pixels, data.w);
+        prev.blockRows[b] = data.rows;
+        resized = true;
+      }
+      block.setLoss(undefined);
+    }
+    if (resized) prev.problem.residualSizesChanged();
+    return prev;
   };
 
   const stages: { name: string; summary: SolveSummary }[] = [];
@@ -565,7 +596,7 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     }
     if (summary && newlyRejected === 0) break;
     if (!fixed) checkConnected(session, views, mergeGroupsCoveredByPrior(connectedGroups(views, nc, poseKey, reference), reference, design), reference);
-    built = build(undefined);
+    built = reuseOrBuild(built);
     summary = runStage(round === 0 ? 'least squares' : `least squares (round ${round + 1})`, built);
   }
   const final = summary!;

@@ -90,13 +90,15 @@ const SCRATCH = {
 };
 
 export class ViewResidual implements ResidualBlock {
-  readonly numResiduals: number;
+  /** 2 per detection; changes with setDetections(). */
+  numResiduals: number;
   readonly parameterBlocks: readonly number[];
   readonly innerSize: number;
   readonly mapped = true;
   loss?: LossFunction;
   readonly lossGroupSize = 2;
-  readonly spec: ViewResidualSpec;
+  /** The view's data; points, pixels and invSigma are replaced by setDetections(). */
+  spec: ViewResidualSpec;
   private readonly nIntr: number;
   // Scratch shared by every block (evaluate is not re-entrant), so that the
   // thousands of blocks of a large problem allocate nothing per instance.
@@ -137,8 +139,18 @@ export class ViewResidual implements ResidualBlock {
   }
 
   /** Sets the robust loss; the engine reads it at each evaluation. */
-  setLoss(loss: LossFunction): void {
+  setLoss(loss: LossFunction | undefined): void {
     this.loss = loss;
+  }
+
+  /**
+   * Replaces the view's detections (same camera, target and chain), e.g.
+   * without the ones rejected as outliers. The problem holding the block
+   * must then be told: problem.residualSizesChanged().
+   */
+  setDetections(points: Float64Array, pixels: Float64Array, invSigma: Float64Array): void {
+    this.spec = { ...this.spec, points, pixels, invSigma };
+    this.numResiduals = pixels.length;
   }
 
   /** Number of detections in the view. */

@@ -88,6 +88,7 @@ export class Problem {
   private readonly residuals: ResidualBlock[] = [];
   private readonly params: (readonly Float64Array[])[] = [];
   private cachedLayout: ProblemLayout | null = null;
+  private sizeVersion = 0;
 
   get numParameterBlocks(): number {
     return this.blocks.length;
@@ -209,6 +210,43 @@ export class Problem {
     this.params.push(block.parameterBlocks.map((p) => this.blocks[p]!.values));
     this.cachedLayout = null;
     return id;
+  }
+
+  /**
+   * Incremented by residualSizesChanged(): buffers sized by numResiduals
+   * (the engine's per-layout workspace) compare it to know when to refresh.
+   */
+  get residualSizeVersion(): number {
+    return this.sizeVersion;
+  }
+
+  /**
+   * Call after residual blocks changed their numResiduals in place (a view
+   * that lost rejected detections, say), with the same parameter blocks in
+   * the same order: updates the layout's residual counts without rebuilding
+   * it. Throws InputError 'solver.invalid_problem' when a block now has no
+   * residuals or a count its loss group size does not divide.
+   */
+  residualSizesChanged(): void {
+    const issues: InputIssue[] = [];
+    let maxResiduals = 1;
+    let numResiduals = 0;
+    for (let id = 0; id < this.residuals.length; id++) {
+      const rb = this.residuals[id]!;
+      const m = rb.numResiduals;
+      const g = rb.lossGroupSize ?? m;
+      if (!Number.isInteger(m) || m < 1) issues.push({ path: `residual block #${id}`, message: `numResiduals = ${m} violates integer ≥ 1` });
+      else if (m % g !== 0) issues.push({ path: `residual block #${id}`, message: `lossGroupSize = ${g} must divide numResiduals = ${m}` });
+      maxResiduals = Math.max(maxResiduals, m);
+      numResiduals += m;
+    }
+    if (issues.length) throw new InputError('solver.invalid_problem', issues);
+    this.sizeVersion++;
+    const L = this.cachedLayout as { maxResiduals: number; numResiduals: number } | null;
+    if (L) {
+      L.maxResiduals = maxResiduals;
+      L.numResiduals = numResiduals;
+    }
   }
 
   /** The index layout (computed once per structure; recomputed after additions). */

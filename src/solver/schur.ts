@@ -273,9 +273,9 @@ function addScaled66(B: Float64Array, s: number, dest: Float64Array, off: number
  * layout, so the trial instance costs only its result arrays.
  */
 class Workspace {
-  readonly r: Float64Array;
-  readonly J: Float64Array;
-  readonly JT: Float64Array;
+  r: Float64Array;
+  J: Float64Array;
+  JT: Float64Array;
   readonly A: Float64Array;
   readonly b: Float64Array;
   readonly B: Float64Array;
@@ -298,10 +298,13 @@ class Workspace {
   readonly rViews: Float64Array[];
   readonly jViews: Float64Array[];
   readonly mapViews: Float64Array[][];
+  /** problem.residualSizeVersion the residual views were made for. */
+  private sizeVersion: number;
 
   constructor(problem: Problem, L: ProblemLayout) {
     const p = L.maxInner;
     const t = L.maxTangent;
+    this.sizeVersion = problem.residualSizeVersion;
     this.r = new Float64Array(L.maxResiduals);
     this.J = new Float64Array(L.maxResiduals * p);
     this.JT = new Float64Array(L.maxResiduals * p);
@@ -326,20 +329,11 @@ class Workspace {
     this.rViews = new Array<Float64Array>(nb);
     this.jViews = new Array<Float64Array>(nb);
     this.mapViews = new Array<Float64Array[]>(nb);
-    const rBySize = new Map<number, Float64Array>();
-    const jBySize = new Map<number, Float64Array>();
+    this.residualViews(problem);
     const mapsBySignature = new Map<string, Float64Array[]>();
     const noMaps: Float64Array[] = [];
     for (let i = 0; i < nb; i++) {
       const rb = problem.residualBlock(i);
-      const m = rb.numResiduals;
-      const mj = m * rb.innerSize;
-      let rv = rBySize.get(m);
-      if (!rv) rBySize.set(m, (rv = this.r.subarray(0, m)));
-      let jv = jBySize.get(mj);
-      if (!jv) jBySize.set(mj, (jv = this.J.subarray(0, mj)));
-      this.rViews[i] = rv;
-      this.jViews[i] = jv;
       if (!rb.mapped) {
         this.mapViews[i] = noMaps;
         continue;
@@ -361,6 +355,36 @@ class Workspace {
       this.mapViews[i] = mv;
     }
   }
+
+  /** After problem.residualSizesChanged(): buffers and residual/Jacobian views for the new counts. */
+  refresh(problem: Problem, L: ProblemLayout): void {
+    if (this.sizeVersion === problem.residualSizeVersion) return;
+    this.sizeVersion = problem.residualSizeVersion;
+    const p = L.maxInner;
+    if (this.r.length < L.maxResiduals) {
+      this.r = new Float64Array(L.maxResiduals);
+      this.J = new Float64Array(L.maxResiduals * p);
+      this.JT = new Float64Array(L.maxResiduals * p);
+    }
+    this.residualViews(problem);
+  }
+
+  /** rViews and jViews for the current numResiduals (blocks of equal sizes share one view). */
+  private residualViews(problem: Problem): void {
+    const rBySize = new Map<number, Float64Array>();
+    const jBySize = new Map<number, Float64Array>();
+    for (let i = 0; i < problem.numResidualBlocks; i++) {
+      const rb = problem.residualBlock(i);
+      const m = rb.numResiduals;
+      const mj = m * rb.innerSize;
+      let rv = rBySize.get(m);
+      if (!rv) rBySize.set(m, (rv = this.r.subarray(0, m)));
+      let jv = jBySize.get(mj);
+      if (!jv) jBySize.set(mj, (jv = this.J.subarray(0, mj)));
+      this.rViews[i] = rv;
+      this.jViews[i] = jv;
+    }
+  }
 }
 
 /** linearizeBlock() result for a block whose evaluate() returned false (a cost is never −∞). */
@@ -371,6 +395,7 @@ const workspaces = new WeakMap<ProblemLayout, Workspace>();
 function workspaceFor(problem: Problem, L: ProblemLayout): Workspace {
   let ws = workspaces.get(L);
   if (!ws) workspaces.set(L, (ws = new Workspace(problem, L)));
+  else ws.refresh(problem, L);
   return ws;
 }
 
