@@ -83,20 +83,31 @@ export function reprojectionNormalEquations(
     }
     cost += rhoS;
     if (q === 0) continue;
-    for (let row = 0; row < 2; row++) {
-      const c0 = Jp[3 * row]! * w, c1 = Jp[3 * row + 1]! * w, c2 = Jp[3 * row + 2]! * w;
-      const e = row === 0 ? ru : rv;
-      const j0 = c2 * y - c1 * z, j1 = c0 * z - c2 * x, j2 = c1 * x - c0 * y;
-      // Left factor scaled by the loss weight.
-      const k0 = q * j0, k1 = q * j1, k2 = q * j2, k3 = q * c0, k4 = q * c1, k5 = q * c2;
-      b0 += k0 * e; b1 += k1 * e; b2 += k2 * e; b3 += k3 * e; b4 += k4 * e; b5 += k5 * e;
-      a00 += k0 * j0; a01 += k0 * j1; a02 += k0 * j2; a03 += k0 * c0; a04 += k0 * c1; a05 += k0 * c2;
-      a11 += k1 * j1; a12 += k1 * j2; a13 += k1 * c0; a14 += k1 * c1; a15 += k1 * c2;
-      a22 += k2 * j2; a23 += k2 * c0; a24 += k2 * c1; a25 += k2 * c2;
-      a33 += k3 * c0; a34 += k3 * c1; a35 += k3 * c2;
-      a44 += k4 * c1; a45 += k4 * c2;
-      a55 += k5 * c2;
-    }
+    // ρ′ folded into both factors as √ρ′ (computed only when ρ′ ≠ 1): A += j jᵀ, b += j e.
+    let sq = 1;
+    if (q !== 1) sq = Math.sqrt(q);
+    const sw = w * sq;
+    // Both Jacobian rows, written out: row u (e = r_u), then row v.
+    let c0 = Jp[0]! * sw, c1 = Jp[1]! * sw, c2 = Jp[2]! * sw;
+    let e = ru * sq;
+    let j0 = c2 * y - c1 * z, j1 = c0 * z - c2 * x, j2 = c1 * x - c0 * y;
+    b0 += j0 * e; b1 += j1 * e; b2 += j2 * e; b3 += c0 * e; b4 += c1 * e; b5 += c2 * e;
+    a00 += j0 * j0; a01 += j0 * j1; a02 += j0 * j2; a03 += j0 * c0; a04 += j0 * c1; a05 += j0 * c2;
+    a11 += j1 * j1; a12 += j1 * j2; a13 += j1 * c0; a14 += j1 * c1; a15 += j1 * c2;
+    a22 += j2 * j2; a23 += j2 * c0; a24 += j2 * c1; a25 += j2 * c2;
+    a33 += c0 * c0; a34 += c0 * c1; a35 += c0 * c2;
+    a44 += c1 * c1; a45 += c1 * c2;
+    a55 += c2 * c2;
+    c0 = Jp[3]! * sw; c1 = Jp[4]! * sw; c2 = Jp[5]! * sw;
+    e = rv * sq;
+    j0 = c2 * y - c1 * z; j1 = c0 * z - c2 * x; j2 = c1 * x - c0 * y;
+    b0 += j0 * e; b1 += j1 * e; b2 += j2 * e; b3 += c0 * e; b4 += c1 * e; b5 += c2 * e;
+    a00 += j0 * j0; a01 += j0 * j1; a02 += j0 * j2; a03 += j0 * c0; a04 += j0 * c1; a05 += j0 * c2;
+    a11 += j1 * j1; a12 += j1 * j2; a13 += j1 * c0; a14 += j1 * c1; a15 += j1 * c2;
+    a22 += j2 * j2; a23 += j2 * c0; a24 += j2 * c1; a25 += j2 * c2;
+    a33 += c0 * c0; a34 += c0 * c1; a35 += c0 * c2;
+    a44 += c1 * c1; a45 += c1 * c2;
+    a55 += c2 * c2;
   }
   A[0] = a00; A[1] = a01; A[2] = a02; A[3] = a03; A[4] = a04; A[5] = a05;
   A[6] = a01; A[7] = a11; A[8] = a12; A[9] = a13; A[10] = a14; A[11] = a15;
