@@ -46,7 +46,12 @@ interface CaseResult {
   iterations: number;
   totalSeconds: number;
   lmSeconds: number;
+  /** Per stage, the time before its first iteration (problem layout, first linearisation), summed. */
+  setupSeconds: number;
+  /** Mean LM iteration (linearise, solve, update; JIT warm-up included): Σ iteration time / Σ (detections × iterations). */
   nsPerDetectionIteration: number;
+  /** All LM time including each stage's setup / Σ (detections × iterations). */
+  nsPerDetectionIterationAllIn: number;
   /** Median over all LM iterations of (iteration time / detections): the steady-state cost, without each stage's first linearisation and JIT warm-up. */
   nsPerDetectionIterationMedian: number;
   peakRssMb: number;
@@ -66,12 +71,16 @@ function runCase(c: Case): CaseResult {
   const sol = solveRig(session);
   const totalSeconds = (performance.now() - t0) / 1000;
   let lmSeconds = 0;
+  let iterationSeconds = 0;
   let detIter = 0;
   const perIteration: number[] = [];
   for (const st of sol.stages) {
     lmSeconds += st.summary.totalSeconds;
     detIter += (st.summary.numResiduals / 2) * Math.max(1, st.summary.iterations.length);
-    for (const r of st.summary.iterations) perIteration.push((r.timeSeconds * 1e9) / (st.summary.numResiduals / 2));
+    for (const r of st.summary.iterations) {
+      iterationSeconds += r.timeSeconds;
+      perIteration.push((r.timeSeconds * 1e9) / (st.summary.numResiduals / 2));
+    }
   }
   perIteration.sort((a, b) => a - b);
   const used = sol.cameras.reduce((s, cam) => s + cam.detectionsUsed, 0);
@@ -82,7 +91,9 @@ function runCase(c: Case): CaseResult {
     iterations: sol.iterations,
     totalSeconds,
     lmSeconds,
-    nsPerDetectionIteration: (lmSeconds * 1e9) / detIter,
+    setupSeconds: lmSeconds - iterationSeconds,
+    nsPerDetectionIteration: (iterationSeconds * 1e9) / detIter,
+    nsPerDetectionIterationAllIn: (lmSeconds * 1e9) / detIter,
     nsPerDetectionIterationMedian: perIteration[perIteration.length >> 1] ?? NaN,
     peakRssMb: process.resourceUsage().maxRSS / 1024,
   };

@@ -3,6 +3,7 @@ import { pinhole } from '../camera/index.js';
 import { refinePose, reprojectionResiduals } from './refine.js';
 import { se3Exp, act, boxMinus, boxPlus, type Pose } from '../geometry/se3.js';
 import { expectMatrixClose, gaussian, numericJacobian, rng } from '../testing/numeric.js';
+import { huberLoss } from '../solver/loss.js';
 
 const K = [800, 790, 320.5, 240.5];
 
@@ -85,5 +86,38 @@ describe('refinePose', () => {
     const r = refinePose(pinhole, K, se3Exp([0, 0, 0, 0, 0, 0.1]), p, uv);
     expect(r.status).toBe('invalid_point');
     expect(r.converged).toBe(false);
+  });
+
+  test('with a Huber loss, three gross corners barely move the pose; least squares is pulled away', () => {
+    const { p, T, uv } = scene(40, 9);
+    const u = rng(2);
+    const noisy = uv.map((x) => x + 0.3 * gaussian(u));
+    for (const i of [3, 17, 28]) {
+      noisy[2 * i] = noisy[2 * i]! + 40;
+      noisy[2 * i + 1] = noisy[2 * i + 1]! - 25;
+    }
+    const start = boxPlus(T, [0.02, -0.02, 0.01, 0.02, 0.01, -0.03]);
+    const ls = refinePose(pinhole, K, start, p, noisy);
+    const robust = refinePose(pinhole, K, start, p, noisy, { loss: huberLoss(1) });
+    expect(robust.converged).toBe(true);
+    const angle = (X: Pose) => {
+      const e = boxMinus(X, T);
+      return Math.hypot(e[0]!, e[1]!, e[2]!);
+    };
+    expect(angle(robust.T_cam_target)).toBeLessThan(0.25 * angle(ls.T_cam_target));
+    // The gross corners stand out in the robust fit's residuals (≥ 40 px), the others stay near the noise.
+    for (const i of [3, 17, 28]) expect(robust.residualsPx[i]).toBeGreaterThan(40);
+    const others = Array.from(robust.residualsPx).filter((_, i) => ![3, 17, 28].includes(i));
+    expect(Math.max(...others)).toBeLessThan(2);
+  });
+
+  test('a Huber loss wider than every residual gives the least-squares pose', () => {
+    const { p, T, uv } = scene(30, 10);
+    const u = rng(3);
+    const noisy = uv.map((x) => x + 0.5 * gaussian(u));
+    const start = boxPlus(T, [0.01, 0.01, -0.01, 0.01, -0.01, 0.02]);
+    const ls = refinePose(pinhole, K, start, p, noisy);
+    const wide = refinePose(pinhole, K, start, p, noisy, { loss: huberLoss(100) });
+    for (const v of boxMinus(wide.T_cam_target, ls.T_cam_target)) expect(Math.abs(v)).toBeLessThan(1e-12);
   });
 });

@@ -16,7 +16,7 @@
 import type { CameraModel } from '../camera/model.js';
 import { act, boxPlus, type Pose } from '../geometry/se3.js';
 import { choleskyInPlace, choleskySolveInPlace } from '../linalg/small.js';
-import { reprojectionNormalEquations } from './pose-normal.js';
+import { reprojectionNormalEquations, type PointLoss } from './pose-normal.js';
 
 export interface RefineOptions {
   /** Maximum number of LM iterations (accepted or rejected steps). Default 100. */
@@ -27,9 +27,15 @@ export interface RefineOptions {
   stepTolerance?: number;
   /** Initial damping relative to max diag(JᵀJ). Default 1e-4. */
   initialLambda?: number;
+  /**
+   * Robust loss ρ on each point's squared pixel error (e.g. the solver's
+   * huberLoss(a), a in pixels): the cost becomes ½ Σ ρ(‖r_i‖²), so a few
+   * gross detections cannot pull the pose. Default: none (least squares).
+   */
+  loss?: PointLoss;
 }
 
-export const DEFAULT_REFINE_OPTIONS: Readonly<Required<RefineOptions>> = Object.freeze({
+export const DEFAULT_REFINE_OPTIONS: Readonly<Required<Omit<RefineOptions, 'loss'>>> = Object.freeze({
   maxIterations: 100,
   functionTolerance: 1e-14,
   stepTolerance: 1e-14,
@@ -104,8 +110,9 @@ const scratchJuvp = new Float64Array(6);
 
 /**
  * Residuals (as reprojectionResiduals) together with the Gauss–Newton normal
- * equations JᵀJ (6x6) and g = Jᵀr (pose-normal.ts, unit weights, no loss).
- * Returns the first point that cannot be projected, or −1.
+ * equations JᵀJ (6x6) and g = Jᵀr (pose-normal.ts, unit weights, each point
+ * weighted by ρ′ under a loss). Returns the cost ½ Σ ρ(‖r_i‖²) (ρ(s) = s
+ * without a loss), or −(i + 1) for the first point i that cannot be projected.
  */
 function normalEquations(
   model: CameraModel,
@@ -113,6 +120,7 @@ function normalEquations(
   T: Pose,
   points3d: ArrayLike<number>,
   pixels: ArrayLike<number>,
+  loss: PointLoss | undefined,
   res: Float64Array,
   JtJ: Float64Array,
   g: Float64Array,
@@ -121,8 +129,8 @@ function normalEquations(
   if (unitWeights.length < n) unitWeights = new Float64Array(n).fill(1);
   // Unit weights as an array rather than null: the rig solver calls the same kernel with
   // weights, and one argument type keeps its optimised code from being thrown away.
-  const c = reprojectionNormalEquations(model, params, T, points3d, pixels, unitWeights, undefined, JtJ, g, res);
-  return c < 0 ? -c - 1 : -1;
+  const c = reprojectionNormalEquations(model, params, T, points3d, pixels, unitWeights, loss, JtJ, g, res);
+  return c < 0 ? c : 0.5 * c;
 }
 
 let unitWeights = new Float64Array(64).fill(1);
@@ -161,15 +169,16 @@ export function refinePose(
   let g = new Float64Array(6);
   let JtJn = new Float64Array(36);
   let gn = new Float64Array(6);
-  const bad = normalEquations(model, params, T, points3d, pixels, res, JtJ, g);
+  const initialCost = normalEquations(model, params, T, points3d, pixels, o.loss, res, JtJ, g);
   const rms = (r: Float64Array) => Math.sqrt(sumSq(r) / Math.max(n, 1));
-  if (bad >= 0) {
+  if (initialCost < 0) {
+    const bad = -initialCost - 1;
     return {
       T_cam_target: T, rmsPx: NaN, residualsPx: new Float64Array(n).fill(NaN), residualsUvPx: res, iterations: 0, converged: false, status: 'invalid_point',
       message: `point ${bad} cannot be projected at the initial pose`, invalidPoint: bad,
     };
   }
-  let cost = 0.5 * sumSq(res);
+  let cost = initialCost;
   let lambda = -1;
   const A = new Float64Array(36);
   const step = new Float64Array(6);
@@ -199,8 +208,8 @@ export function refinePose(
     for (let a = 0; a < 6; a++) step[a] = -g[a]!;
     choleskySolveInPlace(A, 6, step);
     boxPlus(T, step, Tn);
-    const badN = normalEquations(model, params, Tn, points3d, pixels, resNew, JtJn, gn);
-    const costN = badN >= 0 ? Infinity : 0.5 * sumSq(resNew);
+    const cN = normalEquations(model, params, Tn, points3d, pixels, o.loss, resNew, JtJn, gn);
+    const costN = cN < 0 ? Infinity : cN;
     let stepNorm2 = 0;
     for (let a = 0; a < 6; a++) stepNorm2 += step[a]! * step[a]!;
     const stepNorm = Math.sqrt(stepNorm2);

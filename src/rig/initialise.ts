@@ -23,17 +23,28 @@ import { so3Angle } from '../geometry/so3.js';
 import { mat3Mul, mat3Transpose } from '../linalg/small.js';
 import type { Session } from '../io/types.js';
 import { PnpError, solvePnP, type PnpResult } from '../pnp/index.js';
+import { huberLoss } from '../solver/loss.js';
 import { averagePosesRobust } from './average.js';
 import { viewData, type View } from './views.js';
 
 export const MIN_VIEW_POINTS = 6;
 
+/** Huber scale of the initial PnP refinement in units of the camera's pixel sigma (3σ: common practice for a robust threshold). */
+const INIT_PNP_HUBER_SIGMAS = 3;
+
 /**
  * PnP settings for initialisation: a planar fit within 2 px is taken without
- * also trying EPnP, and refinement stops at a relative cost decrease of 1e-8
- * (the joint solve refines everything afterwards).
+ * also trying EPnP, refinement uses a Huber loss at 3 pixel sigmas (a few
+ * gross corners cannot pull the pose, so the trimming below sees them) and
+ * stops at a relative cost decrease of 1e-8 (the joint solve refines
+ * everything afterwards).
  */
-const INIT_PNP_OPTIONS = { acceptPlanarRmsPx: 2, refine: { functionTolerance: 1e-8, stepTolerance: 1e-10, maxIterations: 30 } };
+function initPnpOptions(pixelSigma: number) {
+  return {
+    acceptPlanarRmsPx: 2,
+    refine: { functionTolerance: 1e-8, stepTolerance: 1e-10, maxIterations: 30, loss: huberLoss(INIT_PNP_HUBER_SIGMAS * pixelSigma) },
+  };
+}
 
 export interface PnpOutcome {
   used: number;
@@ -101,6 +112,7 @@ export function pnpOutlierLimit(medianRmsPx: number): number {
  */
 export function fitViewPose(session: Session, view: View, model: CameraModel, intr: Float64Array): boolean {
   const camName = session.cameras[view.camera]!.name;
+  const pnpOptions = initPnpOptions(session.cameras[view.camera]!.pixelSigma);
   if (view.rows.length < MIN_VIEW_POINTS) {
     view.status = 'too_few_points';
     view.reason = `${view.rows.length} points (at least ${MIN_VIEW_POINTS} needed)`;
@@ -131,12 +143,12 @@ export function fitViewPose(session: Session, view: View, model: CameraModel, in
     let fit: PnpResult;
     try {
       const { points, pixels } = viewData(session, view);
-      fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
+      fit = solvePnP(model, intr, points, pixels, pnpOptions);
     } catch (e) {
       if (!(e instanceof PnpError && e.code === 'pnp.unprojectable')) throw e;
       if (!dropUnprojectable()) return false;
       const { points, pixels } = viewData(session, view);
-      fit = solvePnP(model, intr, points, pixels, INIT_PNP_OPTIONS);
+      fit = solvePnP(model, intr, points, pixels, pnpOptions);
     }
     // residualsPx: per-point error norm, px.
     const norms = fit.residualsPx;
@@ -150,7 +162,7 @@ export function fitViewPose(session: Session, view: View, model: CameraModel, in
     }
     if (keep.length < view.rows.length) {
       const sub = viewData(session, view, keep);
-      fit = solvePnP(model, intr, sub.points, sub.pixels, INIT_PNP_OPTIONS);
+      fit = solvePnP(model, intr, sub.points, sub.pixels, pnpOptions);
     }
     view.T_cam_target = fit.T_cam_target;
     view.pnpRmsPx = fit.rmsPx;
