@@ -279,14 +279,15 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
   // accepted step swaps the two, so no point is evaluated twice. A rejected
   // step (rare in bundle adjustment) leaves `ne` untouched.
   let ne = new NormalEquations(problem);
-  let spare: NormalEquations | undefined;
+  let spare = new NormalEquations(problem);
   const N = L.numTangent;
   const delta = new Float64Array(N);
   const D = new Float64Array(N);
   // Saved values of every non-constant block, for restoring after a rejected step.
   const movable: number[] = [];
   for (let id = 0; id < problem.numParameterBlocks; id++) if (!problem.parameterBlock(id).constant) movable.push(id);
-  const saved = movable.map((id) => new Float64Array(problem.parameterBlock(id).values.length));
+  const movableBlocks = movable.map((id) => problem.parameterBlock(id));
+  const saved = movableBlocks.map((b) => new Float64Array(b.values.length));
   const deltaViews = movable.map((id) => delta.subarray(L.globalOffset[id]!, L.globalOffset[id]! + problem.parameterBlock(id).tangentSize));
 
   const lin = ne.linearize();
@@ -354,8 +355,8 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
     const stepNorm = Math.sqrt(stepNorm2);
     record.stepNorm = stepNorm;
     let xNorm2 = 0;
-    for (const id of movable) {
-      const v = problem.parameterBlock(id).values;
+    for (let j = 0; j < movableBlocks.length; j++) {
+      const v = movableBlocks[j]!.values;
       for (let i = 0; i < v.length; i++) xNorm2 += v[i]! * v[i]!;
     }
     const xNorm = Math.sqrt(xNorm2);
@@ -372,12 +373,13 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
     for (let i = 0; i < N; i++) model += delta[i]! * (lambda * D[i]! * delta[i]! - ne.g[i]!);
     model *= 0.5;
     // Trial point.
-    movable.forEach((id, j) => {
-      const b = problem.parameterBlock(id);
-      saved[j]!.set(b.values);
-      b.manifold.plus(saved[j]!, deltaViews[j]!, b.values);
-    });
-    spare ??= new NormalEquations(problem);
+    for (let j = 0; j < movableBlocks.length; j++) {
+      const b = movableBlocks[j]!;
+      const keep = saved[j]!;
+      const v = b.values;
+      for (let i = 0; i < v.length; i++) keep[i] = v[i]!;
+      b.manifold.plus(keep, deltaViews[j]!, v);
+    }
     const ev = spare.linearize();
     const newCost = ev.ok ? spare.cost : NaN;
     const actual = cost - newCost;
@@ -406,7 +408,7 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
         return finish('converged', `gradient tolerance: max|g| = ${gmax.toExponential(3)} < ${o.gradientTolerance}`, cost);
       }
     } else {
-      movable.forEach((id, j) => problem.parameterBlock(id).values.set(saved[j]!));
+      for (let j = 0; j < movableBlocks.length; j++) movableBlocks[j]!.values.set(saved[j]!);
       const stop = reject();
       if (stop) return stop;
     }

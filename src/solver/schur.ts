@@ -540,6 +540,33 @@ export class NormalEquations {
     const Tl = ws.Tl;
     const n = ps.length;
     const sign = ws.mapSign;
+    // Fast path: every map is ±I (blocks that express A in a pose block's own tangent):
+    // H_kl += s_k s_l A and g_k += s_k b, no products at all.
+    let allIdentity = true;
+    for (let l = 0; l < n && allIdentity; l++) {
+      if (kinds[l] === POS_CONSTANT) continue;
+      const s = identityScale(maps[l]!);
+      sign[l] = s;
+      if (s === 0) allIdentity = false;
+    }
+    if (allIdentity) {
+      for (let k = 0; k < n; k++) {
+        const kk = kinds[k]!;
+        if (kk === POS_CONSTANT) continue;
+        const bk = ps[k]!;
+        const sk = sign[k]!;
+        const gOff = L.globalOffset[bk]!;
+        for (let u = 0; u < 6; u++) g[gOff + u] = g[gOff + u]! + sk * b[u]!;
+        for (let l = 0; l < n; l++) {
+          const kl = kinds[l]!;
+          if (kl === POS_CONSTANT) continue;
+          if (kk === POS_KEPT && kl === POS_ELIMINATED) continue;
+          this.selectDestination(kk, kl, bk, ps[l]!, hecs[l]!, 6, 6, nc);
+          addScaled66(A, sk * sign[l]!, this.dest, this.destOff, this.destStride);
+        }
+      }
+      return;
+    }
     // Group positions by their map up to sign; the first position of a group computes T = A M.
     // When the reference map is ±I (identityScale), T = ±A and B_ref = A need no products.
     let ref = -1;
