@@ -38,6 +38,55 @@ describe('Schur elimination', () => {
     expectMatrixClose(concat(a.A), concat(a.truthA), { abs: 0.03 }, 'A vs truth');
   });
 
+  test('6-dim eliminated blocks coupled to 6-dim kept blocks (the pose-sized path): same steps as without elimination', () => {
+    // r_k = a_k + b_k + 0.1·a_k·b_k − y_k (k = 0…5) between kept A_j and eliminated B_i, A_0 constant.
+    const build = (eliminate: boolean) => {
+      const u = rng(3);
+      const A = Array.from({ length: 4 }, (_, j) => Float64Array.from({ length: 6 }, (_, k) => 0.1 * j + 0.05 * k));
+      const B = Array.from({ length: 12 }, (_, i) => Float64Array.from({ length: 6 }, (_, k) => 0.3 * Math.sin(i + k)));
+      const p = new Problem();
+      const aIds = A.map((v, j) => p.addParameterBlock({ values: v, constant: j === 0, label: `A${j}` }));
+      const bIds = B.map((v, i) => p.addParameterBlock({ values: v, eliminate, label: `B${i}` }));
+      for (let i = 0; i < B.length; i++) {
+        for (let j = 0; j < A.length; j++) {
+          if ((i + j) % 3 === 2) continue; // not every pair observed
+          const y = Float64Array.from({ length: 6 }, () => 0.5 + 0.2 * gaussian(u));
+          p.addResidualBlock({
+            numResiduals: 6,
+            parameterBlocks: [aIds[j]!, bIds[i]!],
+            innerSize: 12,
+            mapped: false,
+            evaluate(params, r, J) {
+              const a = params[0]!;
+              const b = params[1]!;
+              for (let k = 0; k < 6; k++) {
+                r[k] = a[k]! + b[k]! + 0.1 * a[k]! * b[k]! - y[k]!;
+                if (J) {
+                  for (let c = 0; c < 12; c++) J[k * 12 + c] = 0;
+                  J[k * 12 + k] = 1 + 0.1 * b[k]!;
+                  J[k * 12 + 6 + k] = 1 + 0.1 * a[k]!;
+                }
+              }
+              return true;
+            },
+          });
+        }
+      }
+      return { p, A, B };
+    };
+    const a = build(true);
+    const b = build(false);
+    expect(a.p.layout().numKept).toBe(18);
+    solve(a.p, { maxIterations: 1 });
+    solve(b.p, { maxIterations: 1 });
+    expectMatrixClose(concat(a.A), concat(b.A), { abs: 1e-12 }, 'A after one step');
+    expectMatrixClose(concat(a.B), concat(b.B), { abs: 1e-12 }, 'B after one step');
+    solve(a.p);
+    solve(b.p);
+    expectMatrixClose(concat(a.A), concat(b.A), { abs: 1e-9 }, 'A');
+    expectMatrixClose(concat(a.B), concat(b.B), { abs: 1e-9 }, 'B');
+  });
+
   test('mapped (J_inner · M_k) and unmapped Jacobians give the same solve', () => {
     const a = coupledPairsProblem({ mapped: true });
     const b = coupledPairsProblem({ mapped: false });

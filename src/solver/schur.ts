@@ -286,6 +286,8 @@ class Workspace {
   readonly fusedCost = new Float64Array(1);
   /** Per eliminated block: global kept column of each stacked coupling column. */
   readonly stackIndex: Int32Array[];
+  /** Per eliminated block: 1 when it and every block it couples to have 6 tangent coordinates (poses). */
+  readonly elim6: Uint8Array;
   /** Per residual block: 1 when it is mapped, 6 inner columns and every non-constant position a 6-dim block (the pose fast path). */
   readonly pose6: Uint8Array;
   /** Per position of the current block: +1 / −1 when its map equals ± the reference position's map, else 0 (pose fast path). */
@@ -320,6 +322,9 @@ class Workspace {
       }
       return Int32Array.from(out);
     });
+    this.elim6 = Uint8Array.from(L.elimBlocks, (id, ei) =>
+      problem.parameterBlock(id).tangentSize === 6 && Array.from(L.couplings[ei]!).every((c) => problem.parameterBlock(c).tangentSize === 6) ? 1 : 0,
+    );
     let maxArity = 0;
     for (let i = 0; i < problem.numResidualBlocks; i++) maxArity = Math.max(maxArity, problem.residualBlock(i).parameterBlocks.length);
     const mapScratch = Array.from({ length: maxArity }, () => new Float64Array(p * t));
@@ -846,8 +851,9 @@ export class NormalEquations {
       rhs[i] = -g[i]!;
     }
     // One call per eliminated block (see linearize() on why the loop body is a method).
+    const elim6 = this.ws.elim6;
     for (let ei = 0; ei < L.elimBlocks.length; ei++) {
-      const col = this.eliminate(ei, lambda, D);
+      const col = elim6[ei] === 1 ? this.eliminate6(ei, lambda, D) : this.eliminate(ei, lambda, D);
       if (col >= 0) return { ok: false, reason: 'eliminated_block_not_positive_definite', blockId: L.elimBlocks[ei]!, column: col };
     }
     mirrorUpper(S, nc);
@@ -903,6 +909,73 @@ export class NormalEquations {
       rhs[idx[a]!] = rhs[idx[a]!]! + sum;
     }
     gramSubtract(V, this.P, this.S, idx, W, te, nc);
+    return -1;
+  }
+
+  /**
+   * eliminate() for a 6-dim block whose couplings are all 6-dim (poses, the
+   * common case): the factor and w = L⁻¹ g_e in locals, one stacked column of
+   * V = L⁻¹ H_ec at a time in registers (stored column by column, so each
+   * entry of the Gram update Vᵀ V is a contiguous 6-term dot product).
+   */
+  private eliminate6(ei: number, lambda: number, D: Float64Array): number {
+    const L = this.layout;
+    const nc = L.numKept;
+    const Hec = this.Hec;
+    const Lee = this.Lee;
+    const id = L.elimBlocks[ei]!;
+    const ho = L.heeOffset[ei]!;
+    const go = L.globalOffset[id]!;
+    for (let k = 0; k < 36; k++) Lee[ho + k] = this.Hee[ho + k]!;
+    for (let u = 0; u < 6; u++) Lee[ho + 7 * u] = Lee[ho + 7 * u]! + lambda * D[go + u]!;
+    const col = choleskyAt(Lee, ho, 6);
+    if (col >= 0) return col;
+    const idx = this.ws.stackIndex[ei]!;
+    const W = idx.length;
+    if (W === 0) return -1;
+    const l10 = Lee[ho + 6]!, l20 = Lee[ho + 12]!, l21 = Lee[ho + 13]!, l30 = Lee[ho + 18]!, l31 = Lee[ho + 19]!, l32 = Lee[ho + 20]!;
+    const l40 = Lee[ho + 24]!, l41 = Lee[ho + 25]!, l42 = Lee[ho + 26]!, l43 = Lee[ho + 27]!;
+    const l50 = Lee[ho + 30]!, l51 = Lee[ho + 31]!, l52 = Lee[ho + 32]!, l53 = Lee[ho + 33]!, l54 = Lee[ho + 34]!;
+    const i0 = 1 / Lee[ho]!, i1 = 1 / Lee[ho + 7]!, i2 = 1 / Lee[ho + 14]!, i3 = 1 / Lee[ho + 21]!, i4 = 1 / Lee[ho + 28]!, i5 = 1 / Lee[ho + 35]!;
+    const g = this.g;
+    const w0 = g[go]! * i0;
+    const w1 = (g[go + 1]! - l10 * w0) * i1;
+    const w2 = (g[go + 2]! - l20 * w0 - l21 * w1) * i2;
+    const w3 = (g[go + 3]! - l30 * w0 - l31 * w1 - l32 * w2) * i3;
+    const w4 = (g[go + 4]! - l40 * w0 - l41 * w1 - l42 * w2 - l43 * w3) * i4;
+    const w5 = (g[go + 5]! - l50 * w0 - l51 * w1 - l52 * w2 - l53 * w3 - l54 * w4) * i5;
+    const V = this.Y; // column c of V at V[6c … 6c + 5]
+    const rhs = this.rhs;
+    const offs = L.hecOffsets[ei]!;
+    for (let c = 0; c < W; c++) {
+      // Column c is column v of coupling j; H_ec_j is 6 x 6 row-major at offs[j].
+      const h = offs[(c / 6) | 0]! + (c % 6);
+      const v0 = Hec[h]! * i0;
+      const v1 = (Hec[h + 6]! - l10 * v0) * i1;
+      const v2 = (Hec[h + 12]! - l20 * v0 - l21 * v1) * i2;
+      const v3 = (Hec[h + 18]! - l30 * v0 - l31 * v1 - l32 * v2) * i3;
+      const v4 = (Hec[h + 24]! - l40 * v0 - l41 * v1 - l42 * v2 - l43 * v3) * i4;
+      const v5 = (Hec[h + 30]! - l50 * v0 - l51 * v1 - l52 * v2 - l53 * v3 - l54 * v4) * i5;
+      const o = 6 * c;
+      V[o] = v0;
+      V[o + 1] = v1;
+      V[o + 2] = v2;
+      V[o + 3] = v3;
+      V[o + 4] = v4;
+      V[o + 5] = v5;
+      rhs[idx[c]!] = rhs[idx[c]!]! + v0 * w0 + v1 * w1 + v2 * w2 + v3 * w3 + v4 * w4 + v5 * w5;
+    }
+    const S = this.S;
+    for (let a = 0; a < W; a++) {
+      const oa = 6 * a;
+      const a0 = V[oa]!, a1 = V[oa + 1]!, a2 = V[oa + 2]!, a3 = V[oa + 3]!, a4 = V[oa + 4]!, a5 = V[oa + 5]!;
+      const rowS = idx[a]! * nc;
+      for (let c = a; c < W; c++) {
+        const oc = 6 * c;
+        const dot = a0 * V[oc]! + a1 * V[oc + 1]! + a2 * V[oc + 2]! + a3 * V[oc + 3]! + a4 * V[oc + 4]! + a5 * V[oc + 5]!;
+        S[rowS + idx[c]!] = S[rowS + idx[c]!]! - dot;
+      }
+    }
     return -1;
   }
 
