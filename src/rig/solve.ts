@@ -498,13 +498,15 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
   /** Whitened error norms of every detection in the built problem. */
   const errorNorms = (built: BuiltProblem): { rows: Int32Array; e: Float64Array }[] => {
     const out: { rows: Int32Array; e: Float64Array }[] = [];
+    let r = new Float64Array(0);
     for (let b = 0; b < built.blocks.length; b++) {
       const block = built.blocks[b]!;
       const params = built.problem.residualParams(built.blockIds[b]!);
-      const r = new Float64Array(block.numResiduals);
-      if (!block.evaluate(params, r, null, null)) r.fill(Infinity);
-      const e = new Float64Array(r.length / 2);
-      for (let k = 0; k < e.length; k++) e[k] = Math.hypot(r[2 * k]!, r[2 * k + 1]!);
+      const m = block.numResiduals;
+      if (r.length < m) r = new Float64Array(2 * m);
+      const e = new Float64Array(m / 2);
+      if (!block.evaluate(params, r, null, null)) e.fill(Infinity);
+      else for (let k = 0; k < e.length; k++) e[k] = Math.sqrt(r[2 * k]! * r[2 * k]! + r[2 * k + 1]! * r[2 * k + 1]!);
       out.push({ rows: built.blockRows[b]!, e });
     }
     return out;

@@ -308,10 +308,9 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
     if (ti - t0 > o.maxSolverTimeSeconds) {
       return finish('no_convergence', `time limit: ${(ti - t0).toFixed(3)} s > maxSolverTimeSeconds = ${o.maxSolverTimeSeconds}`, cost);
     }
-    for (let i = 0; i < N; i++) {
-      const d = Math.min(Math.max(ne.diag[i]!, o.diagonalFloor), o.diagonalCeiling);
-      D[i] = o.diagonalMemory && it > 1 ? Math.max(D[i]!, d) : d;
-    }
+    // The vector loops of an iteration live in small functions (below): this long
+    // function runs once per solve and would execute them unoptimised, boxing every number.
+    dampingDiagonal(D, ne.diag, o.diagonalFloor, o.diagonalCeiling, o.diagonalMemory && it > 1);
     const record: IterationRecord = {
       iteration: it,
       cost,
@@ -350,16 +349,9 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
       if (stop) return stop;
       continue;
     }
-    let stepNorm2 = 0;
-    for (let i = 0; i < N; i++) stepNorm2 += delta[i]! * delta[i]!;
-    const stepNorm = Math.sqrt(stepNorm2);
+    const stepNorm = Math.sqrt(sumSquares(delta));
     record.stepNorm = stepNorm;
-    let xNorm2 = 0;
-    for (let j = 0; j < movableBlocks.length; j++) {
-      const v = movableBlocks[j]!.values;
-      for (let i = 0; i < v.length; i++) xNorm2 += v[i]! * v[i]!;
-    }
-    const xNorm = Math.sqrt(xNorm2);
+    const xNorm = Math.sqrt(valuesSumSquares(movableBlocks));
     if (stepNorm < o.parameterTolerance * (xNorm + o.parameterTolerance)) {
       // The step is not tried, so no iteration record is added (acceptedSteps + rejectedSteps = iterations.length).
       return finish(
@@ -369,17 +361,9 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
       );
     }
     // Predicted decrease L(0) − L(δ) = ½ δᵀ(λDδ − g).
-    let model = 0;
-    for (let i = 0; i < N; i++) model += delta[i]! * (lambda * D[i]! * delta[i]! - ne.g[i]!);
-    model *= 0.5;
+    const model = predictedDecrease(delta, D, ne.g, lambda);
     // Trial point.
-    for (let j = 0; j < movableBlocks.length; j++) {
-      const b = movableBlocks[j]!;
-      const keep = saved[j]!;
-      const v = b.values;
-      for (let i = 0; i < v.length; i++) keep[i] = v[i]!;
-      b.manifold.plus(keep, deltaViews[j]!, v);
-    }
+    applyStep(movableBlocks, saved, deltaViews);
     const ev = spare.linearize();
     const newCost = ev.ok ? spare.cost : NaN;
     const actual = cost - newCost;
@@ -414,6 +398,49 @@ export function solve(problem: Problem, options: SolveOptions = {}): SolveSummar
     }
   }
   return finish('no_convergence', `maxIterations = ${o.maxIterations} reached (cost ${cost.toExponential(6)})`, cost);
+}
+
+/** D_i = clamp(diag_i, floor, ceiling), or max(D_i, that) with memory (Marquardt scaling). */
+function dampingDiagonal(D: Float64Array, diag: Float64Array, floor: number, ceiling: number, memory: boolean): void {
+  for (let i = 0; i < D.length; i++) {
+    const d = Math.min(Math.max(diag[i]!, floor), ceiling);
+    D[i] = memory ? Math.max(D[i]!, d) : d;
+  }
+}
+
+function sumSquares(v: Float64Array): number {
+  let s = 0;
+  for (let i = 0; i < v.length; i++) s += v[i]! * v[i]!;
+  return s;
+}
+
+/** Σ over the blocks of ‖values‖². */
+function valuesSumSquares(blocks: readonly { values: Float64Array }[]): number {
+  let s = 0;
+  for (let j = 0; j < blocks.length; j++) s += sumSquares(blocks[j]!.values);
+  return s;
+}
+
+/** Predicted decrease of the damped Gauss–Newton model, L(0) − L(δ) = ½ δᵀ(λDδ − g). */
+function predictedDecrease(delta: Float64Array, D: Float64Array, g: Float64Array, lambda: number): number {
+  let m = 0;
+  for (let i = 0; i < delta.length; i++) m += delta[i]! * (lambda * D[i]! * delta[i]! - g[i]!);
+  return 0.5 * m;
+}
+
+/** Saves each block's values and moves it to values ⊞ δ_block. */
+function applyStep(
+  blocks: readonly { values: Float64Array; manifold: { plus(x: Float64Array, delta: Float64Array, out: Float64Array): void } }[],
+  saved: Float64Array[],
+  deltas: Float64Array[],
+): void {
+  for (let j = 0; j < blocks.length; j++) {
+    const b = blocks[j]!;
+    const keep = saved[j]!;
+    const v = b.values;
+    for (let i = 0; i < v.length; i++) keep[i] = v[i]!;
+    b.manifold.plus(keep, deltas[j]!, v);
+  }
 }
 
 function maxAbs(v: Float64Array): number {
