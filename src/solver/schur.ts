@@ -1010,7 +1010,12 @@ export class NormalEquations {
     const pr = this.problem;
     const L = this.layout;
     const w = this.z;
+    const elim6 = this.ws.elim6;
     for (let ei = 0; ei < L.elimBlocks.length; ei++) {
+      if (elim6[ei] === 1) {
+        this.backSubstitute6(ei, delta);
+        continue;
+      }
       const id = L.elimBlocks[ei]!;
       const te = pr.parameterBlock(id).tangentSize;
       const go = L.globalOffset[id]!;
@@ -1032,5 +1037,52 @@ export class NormalEquations {
       solveRowsAt(this.Lee, ho, te, w, 1);
       for (let u = 0; u < te; u++) delta[go + u] = w[u]!;
     }
+  }
+
+  /** backSubstitute() for one pose-sized block (see eliminate6): couplings and the 6x6 solve written out. */
+  private backSubstitute6(ei: number, delta: Float64Array): void {
+    const L = this.layout;
+    const Hec = this.Hec;
+    const g = this.g;
+    const go = L.globalOffset[L.elimBlocks[ei]!]!;
+    let w0 = -g[go]!, w1 = -g[go + 1]!, w2 = -g[go + 2]!, w3 = -g[go + 3]!, w4 = -g[go + 4]!, w5 = -g[go + 5]!;
+    const couplings = L.couplings[ei]!;
+    const offs = L.hecOffsets[ei]!;
+    for (let j = 0; j < couplings.length; j++) {
+      const oc = L.globalOffset[couplings[j]!]!;
+      const d0 = delta[oc]!, d1 = delta[oc + 1]!, d2 = delta[oc + 2]!, d3 = delta[oc + 3]!, d4 = delta[oc + 4]!, d5 = delta[oc + 5]!;
+      const h = offs[j]!;
+      w0 -= Hec[h]! * d0 + Hec[h + 1]! * d1 + Hec[h + 2]! * d2 + Hec[h + 3]! * d3 + Hec[h + 4]! * d4 + Hec[h + 5]! * d5;
+      w1 -= Hec[h + 6]! * d0 + Hec[h + 7]! * d1 + Hec[h + 8]! * d2 + Hec[h + 9]! * d3 + Hec[h + 10]! * d4 + Hec[h + 11]! * d5;
+      w2 -= Hec[h + 12]! * d0 + Hec[h + 13]! * d1 + Hec[h + 14]! * d2 + Hec[h + 15]! * d3 + Hec[h + 16]! * d4 + Hec[h + 17]! * d5;
+      w3 -= Hec[h + 18]! * d0 + Hec[h + 19]! * d1 + Hec[h + 20]! * d2 + Hec[h + 21]! * d3 + Hec[h + 22]! * d4 + Hec[h + 23]! * d5;
+      w4 -= Hec[h + 24]! * d0 + Hec[h + 25]! * d1 + Hec[h + 26]! * d2 + Hec[h + 27]! * d3 + Hec[h + 28]! * d4 + Hec[h + 29]! * d5;
+      w5 -= Hec[h + 30]! * d0 + Hec[h + 31]! * d1 + Hec[h + 32]! * d2 + Hec[h + 33]! * d3 + Hec[h + 34]! * d4 + Hec[h + 35]! * d5;
+    }
+    // (L Lᵀ) x = w: forward, then backward substitution with the factor from eliminate6().
+    const M = this.Lee;
+    const o = L.heeOffset[ei]!;
+    const l00 = M[o]!, l10 = M[o + 6]!, l11 = M[o + 7]!, l20 = M[o + 12]!, l21 = M[o + 13]!, l22 = M[o + 14]!;
+    const l30 = M[o + 18]!, l31 = M[o + 19]!, l32 = M[o + 20]!, l33 = M[o + 21]!;
+    const l40 = M[o + 24]!, l41 = M[o + 25]!, l42 = M[o + 26]!, l43 = M[o + 27]!, l44 = M[o + 28]!;
+    const l50 = M[o + 30]!, l51 = M[o + 31]!, l52 = M[o + 32]!, l53 = M[o + 33]!, l54 = M[o + 34]!, l55 = M[o + 35]!;
+    const y0 = w0 / l00;
+    const y1 = (w1 - l10 * y0) / l11;
+    const y2 = (w2 - l20 * y0 - l21 * y1) / l22;
+    const y3 = (w3 - l30 * y0 - l31 * y1 - l32 * y2) / l33;
+    const y4 = (w4 - l40 * y0 - l41 * y1 - l42 * y2 - l43 * y3) / l44;
+    const y5 = (w5 - l50 * y0 - l51 * y1 - l52 * y2 - l53 * y3 - l54 * y4) / l55;
+    const x5 = y5 / l55;
+    const x4 = (y4 - l54 * x5) / l44;
+    const x3 = (y3 - l43 * x4 - l53 * x5) / l33;
+    const x2 = (y2 - l32 * x3 - l42 * x4 - l52 * x5) / l22;
+    const x1 = (y1 - l21 * x2 - l31 * x3 - l41 * x4 - l51 * x5) / l11;
+    const x0 = (y0 - l10 * x1 - l20 * x2 - l30 * x3 - l40 * x4 - l50 * x5) / l00;
+    delta[go] = x0;
+    delta[go + 1] = x1;
+    delta[go + 2] = x2;
+    delta[go + 3] = x3;
+    delta[go + 4] = x4;
+    delta[go + 5] = x5;
   }
 }
