@@ -169,6 +169,25 @@ function choleskyAt(M: Float64Array, off: number, n: number): number {
   return -1;
 }
 
+/**
+ * 6x6 forward substitution: out[t + k] = (L⁻¹ x)_k, k = 0…5, for x_k = src[s + k·stride] and the lower
+ * factor L at M[o…] (row-major 6x6). out may be src when t = s and stride = 1.
+ */
+function forward6(M: Float64Array, o: number, src: Float64Array, s: number, stride: number, out: Float64Array, t: number): void {
+  const x0 = src[s]! / M[o]!;
+  const x1 = (src[s + stride]! - M[o + 6]! * x0) / M[o + 7]!;
+  const x2 = (src[s + 2 * stride]! - M[o + 12]! * x0 - M[o + 13]! * x1) / M[o + 14]!;
+  const x3 = (src[s + 3 * stride]! - M[o + 18]! * x0 - M[o + 19]! * x1 - M[o + 20]! * x2) / M[o + 21]!;
+  const x4 = (src[s + 4 * stride]! - M[o + 24]! * x0 - M[o + 25]! * x1 - M[o + 26]! * x2 - M[o + 27]! * x3) / M[o + 28]!;
+  const x5 = (src[s + 5 * stride]! - M[o + 30]! * x0 - M[o + 31]! * x1 - M[o + 32]! * x2 - M[o + 33]! * x3 - M[o + 34]! * x4) / M[o + 35]!;
+  out[t] = x0;
+  out[t + 1] = x1;
+  out[t + 2] = x2;
+  out[t + 3] = x3;
+  out[t + 4] = x4;
+  out[t + 5] = x5;
+}
+
 /** Solves L X = B in place for B (n x w, row-major, rows of length w), L (lower) at M[off…]. */
 function forwardRowsAt(M: Float64Array, off: number, n: number, B: Float64Array, w: number): void {
   for (let i = 0; i < n; i++) {
@@ -933,37 +952,18 @@ export class NormalEquations {
     const idx = this.ws.stackIndex[ei]!;
     const W = idx.length;
     if (W === 0) return -1;
-    const l10 = Lee[ho + 6]!, l20 = Lee[ho + 12]!, l21 = Lee[ho + 13]!, l30 = Lee[ho + 18]!, l31 = Lee[ho + 19]!, l32 = Lee[ho + 20]!;
-    const l40 = Lee[ho + 24]!, l41 = Lee[ho + 25]!, l42 = Lee[ho + 26]!, l43 = Lee[ho + 27]!;
-    const l50 = Lee[ho + 30]!, l51 = Lee[ho + 31]!, l52 = Lee[ho + 32]!, l53 = Lee[ho + 33]!, l54 = Lee[ho + 34]!;
-    const i0 = 1 / Lee[ho]!, i1 = 1 / Lee[ho + 7]!, i2 = 1 / Lee[ho + 14]!, i3 = 1 / Lee[ho + 21]!, i4 = 1 / Lee[ho + 28]!, i5 = 1 / Lee[ho + 35]!;
-    const g = this.g;
-    const w0 = g[go]! * i0;
-    const w1 = (g[go + 1]! - l10 * w0) * i1;
-    const w2 = (g[go + 2]! - l20 * w0 - l21 * w1) * i2;
-    const w3 = (g[go + 3]! - l30 * w0 - l31 * w1 - l32 * w2) * i3;
-    const w4 = (g[go + 4]! - l40 * w0 - l41 * w1 - l42 * w2 - l43 * w3) * i4;
-    const w5 = (g[go + 5]! - l50 * w0 - l51 * w1 - l52 * w2 - l53 * w3 - l54 * w4) * i5;
-    const V = this.Y; // column c of V at V[6c … 6c + 5]
+    // w = L⁻¹ g_e (in z), then column c of V = L⁻¹ H_ec at V[6c … 6c + 5] with rhs_c += V_cᵀ w.
+    const w = this.z;
+    forward6(Lee, ho, this.g, go, 1, w, 0);
+    const w0 = w[0]!, w1 = w[1]!, w2 = w[2]!, w3 = w[3]!, w4 = w[4]!, w5 = w[5]!;
+    const V = this.Y;
     const rhs = this.rhs;
     const offs = L.hecOffsets[ei]!;
     for (let c = 0; c < W; c++) {
       // Column c is column v of coupling j; H_ec_j is 6 x 6 row-major at offs[j].
-      const h = offs[(c / 6) | 0]! + (c % 6);
-      const v0 = Hec[h]! * i0;
-      const v1 = (Hec[h + 6]! - l10 * v0) * i1;
-      const v2 = (Hec[h + 12]! - l20 * v0 - l21 * v1) * i2;
-      const v3 = (Hec[h + 18]! - l30 * v0 - l31 * v1 - l32 * v2) * i3;
-      const v4 = (Hec[h + 24]! - l40 * v0 - l41 * v1 - l42 * v2 - l43 * v3) * i4;
-      const v5 = (Hec[h + 30]! - l50 * v0 - l51 * v1 - l52 * v2 - l53 * v3 - l54 * v4) * i5;
       const o = 6 * c;
-      V[o] = v0;
-      V[o + 1] = v1;
-      V[o + 2] = v2;
-      V[o + 3] = v3;
-      V[o + 4] = v4;
-      V[o + 5] = v5;
-      rhs[idx[c]!] = rhs[idx[c]!]! + v0 * w0 + v1 * w1 + v2 * w2 + v3 * w3 + v4 * w4 + v5 * w5;
+      forward6(Lee, ho, Hec, offs[(c / 6) | 0]! + (c % 6), 6, V, o);
+      rhs[idx[c]!] = rhs[idx[c]!]! + V[o]! * w0 + V[o + 1]! * w1 + V[o + 2]! * w2 + V[o + 3]! * w3 + V[o + 4]! * w4 + V[o + 5]! * w5;
     }
     const S = this.S;
     for (let a = 0; a < W; a++) {
@@ -1059,19 +1059,22 @@ export class NormalEquations {
       w4 -= Hec[h + 24]! * d0 + Hec[h + 25]! * d1 + Hec[h + 26]! * d2 + Hec[h + 27]! * d3 + Hec[h + 28]! * d4 + Hec[h + 29]! * d5;
       w5 -= Hec[h + 30]! * d0 + Hec[h + 31]! * d1 + Hec[h + 32]! * d2 + Hec[h + 33]! * d3 + Hec[h + 34]! * d4 + Hec[h + 35]! * d5;
     }
-    // (L Lᵀ) x = w: forward, then backward substitution with the factor from eliminate6().
+    // (L Lᵀ) x = w: forward (forward6), then backward substitution with the factor from eliminate6().
     const M = this.Lee;
     const o = L.heeOffset[ei]!;
+    const y = this.z;
+    y[0] = w0;
+    y[1] = w1;
+    y[2] = w2;
+    y[3] = w3;
+    y[4] = w4;
+    y[5] = w5;
+    forward6(M, o, y, 0, 1, y, 0);
+    const y0 = y[0]!, y1 = y[1]!, y2 = y[2]!, y3 = y[3]!, y4 = y[4]!, y5 = y[5]!;
     const l00 = M[o]!, l10 = M[o + 6]!, l11 = M[o + 7]!, l20 = M[o + 12]!, l21 = M[o + 13]!, l22 = M[o + 14]!;
     const l30 = M[o + 18]!, l31 = M[o + 19]!, l32 = M[o + 20]!, l33 = M[o + 21]!;
     const l40 = M[o + 24]!, l41 = M[o + 25]!, l42 = M[o + 26]!, l43 = M[o + 27]!, l44 = M[o + 28]!;
     const l50 = M[o + 30]!, l51 = M[o + 31]!, l52 = M[o + 32]!, l53 = M[o + 33]!, l54 = M[o + 34]!, l55 = M[o + 35]!;
-    const y0 = w0 / l00;
-    const y1 = (w1 - l10 * y0) / l11;
-    const y2 = (w2 - l20 * y0 - l21 * y1) / l22;
-    const y3 = (w3 - l30 * y0 - l31 * y1 - l32 * y2) / l33;
-    const y4 = (w4 - l40 * y0 - l41 * y1 - l42 * y2 - l43 * y3) / l44;
-    const y5 = (w5 - l50 * y0 - l51 * y1 - l52 * y2 - l53 * y3 - l54 * y4) / l55;
     const x5 = y5 / l55;
     const x4 = (y4 - l54 * x5) / l44;
     const x3 = (y3 - l43 * x4 - l53 * x5) / l33;
