@@ -1045,30 +1045,21 @@ export class NormalEquations {
     const Hec = this.Hec;
     const g = this.g;
     const go = L.globalOffset[L.elimBlocks[ei]!]!;
-    let w0 = -g[go]!, w1 = -g[go + 1]!, w2 = -g[go + 2]!, w3 = -g[go + 3]!, w4 = -g[go + 4]!, w5 = -g[go + 5]!;
+    // y = −g_e − Σ_j H_ec_j δ_j, then (L Lᵀ) x = y: forward (forward6), then backward substitution
+    // with the factor from eliminate6().
+    const y = this.z;
+    for (let u = 0; u < 6; u++) y[u] = -g[go + u]!;
     const couplings = L.couplings[ei]!;
     const offs = L.hecOffsets[ei]!;
     for (let j = 0; j < couplings.length; j++) {
       const oc = L.globalOffset[couplings[j]!]!;
       const d0 = delta[oc]!, d1 = delta[oc + 1]!, d2 = delta[oc + 2]!, d3 = delta[oc + 3]!, d4 = delta[oc + 4]!, d5 = delta[oc + 5]!;
-      const h = offs[j]!;
-      w0 -= Hec[h]! * d0 + Hec[h + 1]! * d1 + Hec[h + 2]! * d2 + Hec[h + 3]! * d3 + Hec[h + 4]! * d4 + Hec[h + 5]! * d5;
-      w1 -= Hec[h + 6]! * d0 + Hec[h + 7]! * d1 + Hec[h + 8]! * d2 + Hec[h + 9]! * d3 + Hec[h + 10]! * d4 + Hec[h + 11]! * d5;
-      w2 -= Hec[h + 12]! * d0 + Hec[h + 13]! * d1 + Hec[h + 14]! * d2 + Hec[h + 15]! * d3 + Hec[h + 16]! * d4 + Hec[h + 17]! * d5;
-      w3 -= Hec[h + 18]! * d0 + Hec[h + 19]! * d1 + Hec[h + 20]! * d2 + Hec[h + 21]! * d3 + Hec[h + 22]! * d4 + Hec[h + 23]! * d5;
-      w4 -= Hec[h + 24]! * d0 + Hec[h + 25]! * d1 + Hec[h + 26]! * d2 + Hec[h + 27]! * d3 + Hec[h + 28]! * d4 + Hec[h + 29]! * d5;
-      w5 -= Hec[h + 30]! * d0 + Hec[h + 31]! * d1 + Hec[h + 32]! * d2 + Hec[h + 33]! * d3 + Hec[h + 34]! * d4 + Hec[h + 35]! * d5;
+      for (let u = 0, h = offs[j]!; u < 6; u++, h += 6) {
+        y[u] = y[u]! - (Hec[h]! * d0 + Hec[h + 1]! * d1 + Hec[h + 2]! * d2 + Hec[h + 3]! * d3 + Hec[h + 4]! * d4 + Hec[h + 5]! * d5);
+      }
     }
-    // (L Lᵀ) x = w: forward (forward6), then backward substitution with the factor from eliminate6().
     const M = this.Lee;
     const o = L.heeOffset[ei]!;
-    const y = this.z;
-    y[0] = w0;
-    y[1] = w1;
-    y[2] = w2;
-    y[3] = w3;
-    y[4] = w4;
-    y[5] = w5;
     forward6(M, o, y, 0, 1, y, 0);
     const y0 = y[0]!, y1 = y[1]!, y2 = y[2]!, y3 = y[3]!, y4 = y[4]!, y5 = y[5]!;
     const l00 = M[o]!, l10 = M[o + 6]!, l11 = M[o + 7]!, l20 = M[o + 12]!, l21 = M[o + 13]!, l22 = M[o + 14]!;
