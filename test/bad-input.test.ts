@@ -82,6 +82,8 @@ const cases: Case[] = [
   { name: 'intrinsics omitted without solve_intrinsics', session: sub(S, '    focal: [450.0, 450.0]\n    center: [320.0, 240.0]\n', ''), expect: ['has no focal, center', 'solve_intrinsics: true'] },
   { name: 'fixed_intrinsics names an unknown parameter', session: sub(S, 'pixel_sigma: 0.5', 'pixel_sigma: 0.5\n    solve_intrinsics: true\n    fixed_intrinsics: [k3, k5]'), expect: ['fixed_intrinsics[1]', '"k5" is not a brown-conrady parameter'] },
   { name: 'checkerboard with one inner corner column', session: sub(S, 'inner_corners: [4, 3]', 'inner_corners: [1, 3]'), expect: ['targets[0].inner_corners[0]', '>= 2'] },
+  // Found by fuzzing: a large count allocated gigabytes for the board's point table before any check.
+  { name: 'checkerboard with 100000 x 100000 inner corners', session: sub(S, 'inner_corners: [4, 3]', 'inner_corners: [100000, 100000]'), expect: ['targets[0].inner_corners', 'at most 1,000,000'] },
   { name: 'negative square', session: sub(S, 'square: 0.05', 'square: -0.05'), expect: ['targets[0].square', '> 0'] },
   { name: 'points target with 3 points', session: sub(S, ', [0.5, 0.5, 0.1]]', ']'), expect: ['targets[1].points', 'at least 4'] },
   { name: 'YAML syntax error', session: sub(S, 'center: [320.0, 240.0]', 'center: [320.0, 240.0'), expect: ['YAML syntax'] },

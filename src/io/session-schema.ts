@@ -56,12 +56,21 @@ export const cameraSchema = z.strictObject({
     .optional(),
 });
 
+/**
+ * Most inner corners a checkerboard may have (columns × rows). Far beyond any printed board; it keeps a typo
+ * (an extra digit) or a corrupted file from allocating gigabytes for the board's point table.
+ */
+export const MAX_CHECKERBOARD_CORNERS = 1_000_000;
+
 export const checkerboardTargetSchema = z.strictObject({
   name: nameSchema,
   kind: z.literal('checkerboard'),
   inner_corners: z
     .tuple([z.int().min(2), z.int().min(2)])
-    .meta({ description: '[columns, rows] of inner corners; point id = row*columns + column at (column*square, row*square, 0).' }),
+    .refine(([c, r]) => c * r <= MAX_CHECKERBOARD_CORNERS, {
+      message: `columns × rows must be at most ${MAX_CHECKERBOARD_CORNERS.toLocaleString('en-US')} inner corners`,
+    })
+    .meta({ description: `[columns, rows] of inner corners (columns × rows ≤ ${MAX_CHECKERBOARD_CORNERS}); point id = row*columns + column at (column*square, row*square, 0).` }),
   square: z.number().positive().meta({ description: 'Square size, metres.' }),
 });
 
@@ -117,7 +126,7 @@ export const SESSION_FIELD_HELP: Record<string, string> = {
   fixed_intrinsics: 'list intrinsic parameter names, e.g. fixed_intrinsics: [k3]',
   pixel_sigma: 'write the detection noise in pixels, > 0, e.g. pixel_sigma: 0.5',
   kind: 'use kind: checkerboard or kind: points',
-  inner_corners: 'write inner_corners: [columns, rows], integers >= 2 (inner corners, not squares)',
+  inner_corners: `write inner_corners: [columns, rows], integers >= 2 (inner corners, not squares), at most ${MAX_CHECKERBOARD_CORNERS.toLocaleString('en-US')} in all`,
   square: 'write the square size in metres, > 0, e.g. square: 0.06',
   points: 'list at least 4 points as [x, y, z] in metres, e.g. points: [[0, 0, 0], [0.5, 0, 0], ...]',
 };
