@@ -171,31 +171,40 @@ export function adjoint(T: Pose, out: Float64Array = new Float64Array(36)): Floa
   return out;
 }
 
-const congruence = {
-  P: new Float64Array(9),
-  Q: new Float64Array(9),
-  W: new Float64Array(9),
-  QC: new Float64Array(9),
-  CW: new Float64Array(9),
-  X: new Float64Array(9),
-  Y: new Float64Array(9),
-};
-
 /**
- * out[off + 6i + j] = (Rᵀ X R)_ij for 3x3 row-major R, X (Y: scratch). With
- * `symmetric` (X symmetric) only the upper triangle is computed and mirrored,
- * so the block is exactly symmetric.
+ * out[off + 6i + j] = (Rᵀ X R)_ij for a 3x3 row-major R and X given entry by entry. With `symmetric`
+ * (X symmetric) the lower triangle is copied from the upper one, so the block is exactly symmetric.
  */
-function rotateBlockInto(R: Float64Array, X: Float64Array, Y: Float64Array, out: Float64Array, off: number, symmetric: boolean): void {
-  for (let i = 0; i < 3; i++) {
-    const x0 = X[3 * i]!, x1 = X[3 * i + 1]!, x2 = X[3 * i + 2]!;
-    for (let j = 0; j < 3; j++) Y[3 * i + j] = x0 * R[j]! + x1 * R[3 + j]! + x2 * R[6 + j]!;
+function rotateInto(
+  R: Float64Array,
+  x00: number, x01: number, x02: number,
+  x10: number, x11: number, x12: number,
+  x20: number, x21: number, x22: number,
+  out: Float64Array,
+  off: number,
+  symmetric: boolean,
+): void {
+  const r00 = R[0]!, r01 = R[1]!, r02 = R[2]!, r10 = R[3]!, r11 = R[4]!, r12 = R[5]!, r20 = R[6]!, r21 = R[7]!, r22 = R[8]!;
+  // Y = X R
+  const y00 = x00 * r00 + x01 * r10 + x02 * r20, y01 = x00 * r01 + x01 * r11 + x02 * r21, y02 = x00 * r02 + x01 * r12 + x02 * r22;
+  const y10 = x10 * r00 + x11 * r10 + x12 * r20, y11 = x10 * r01 + x11 * r11 + x12 * r21, y12 = x10 * r02 + x11 * r12 + x12 * r22;
+  const y20 = x20 * r00 + x21 * r10 + x22 * r20, y21 = x20 * r01 + x21 * r11 + x22 * r21, y22 = x20 * r02 + x21 * r12 + x22 * r22;
+  // Rᵀ Y: entry (i, j) = Σ_k R_ki Y_kj
+  out[off] = r00 * y00 + r10 * y10 + r20 * y20;
+  out[off + 1] = r00 * y01 + r10 * y11 + r20 * y21;
+  out[off + 2] = r00 * y02 + r10 * y12 + r20 * y22;
+  out[off + 7] = r01 * y01 + r11 * y11 + r21 * y21;
+  out[off + 8] = r01 * y02 + r11 * y12 + r21 * y22;
+  out[off + 14] = r02 * y02 + r12 * y12 + r22 * y22;
+  if (symmetric) {
+    out[off + 6] = out[off + 1]!;
+    out[off + 12] = out[off + 2]!;
+    out[off + 13] = out[off + 8]!;
+  } else {
+    out[off + 6] = r01 * y00 + r11 * y10 + r21 * y20;
+    out[off + 12] = r02 * y00 + r12 * y10 + r22 * y20;
+    out[off + 13] = r02 * y01 + r12 * y11 + r22 * y21;
   }
-  for (let i = 0; i < 3; i++) {
-    const r0 = R[i]!, r1 = R[3 + i]!, r2 = R[6 + i]!;
-    for (let j = symmetric ? i : 0; j < 3; j++) out[off + 6 * i + j] = r0 * Y[j]! + r1 * Y[3 + j]! + r2 * Y[6 + j]!;
-  }
-  if (symmetric) for (let i = 1; i < 3; i++) for (let j = 0; j < i; j++) out[off + 6 * i + j] = out[off + 6 * j + i]!;
 }
 
 /**
@@ -208,42 +217,30 @@ function rotateBlockInto(R: Float64Array, X: Float64Array, Y: Float64Array, out:
  *   Kᵀ A K = [[P + QC + (QC)ᵀ − CWC, Q − CW], [(Q − CW)ᵀ, W]],  Kᵀ b = [b₁ − t × b₂, b₂],
  * then every 3x3 block X becomes Rᵀ X R and each 3-vector v becomes Rᵀ v.
  * Row i of M·C is mᵢ × t; column j of C·M is t × mⱼ. About 200
- * multiplications instead of the 430 of the dense products.
+ * multiplications instead of the 430 of the dense products, all in locals.
  */
 export function adjointCongruence(T: Pose, A: Float64Array, b: Float64Array, outA: Float64Array, outb: Float64Array): void {
   const R = T.R;
   const tx = T.t[0]!, ty = T.t[1]!, tz = T.t[2]!;
-  const { P, Q, W, QC, CW, X, Y } = congruence;
-  for (let i = 0; i < 3; i++) {
-    for (let j = 0; j < 3; j++) {
-      P[3 * i + j] = A[6 * i + j]!;
-      Q[3 * i + j] = A[6 * i + 3 + j]!;
-      W[3 * i + j] = A[6 * (3 + i) + 3 + j]!;
-    }
-  }
-  for (let i = 0; i < 3; i++) {
-    const q0 = Q[3 * i]!, q1 = Q[3 * i + 1]!, q2 = Q[3 * i + 2]!;
-    QC[3 * i] = q1 * tz - q2 * ty;
-    QC[3 * i + 1] = q2 * tx - q0 * tz;
-    QC[3 * i + 2] = q0 * ty - q1 * tx;
-    const w0 = W[i]!, w1 = W[3 + i]!, w2 = W[6 + i]!;
-    CW[i] = ty * w2 - tz * w1;
-    CW[3 + i] = tz * w0 - tx * w2;
-    CW[6 + i] = tx * w1 - ty * w0;
-  }
-  // X = Q − CW (upper-right block before rotation).
-  for (let k = 0; k < 9; k++) X[k] = Q[k]! - CW[k]!;
-  rotateBlockInto(R, X, Y, outA, 3, false);
-  // X = P + QC + (QC)ᵀ − (CW)C, rows of (CW)C being (CW)ᵢ × t.
-  for (let i = 0; i < 3; i++) {
-    const c0 = CW[3 * i]!, c1 = CW[3 * i + 1]!, c2 = CW[3 * i + 2]!;
-    const cwc0 = c1 * tz - c2 * ty, cwc1 = c2 * tx - c0 * tz, cwc2 = c0 * ty - c1 * tx;
-    X[3 * i] = P[3 * i]! + QC[3 * i]! + QC[i]! - cwc0;
-    X[3 * i + 1] = P[3 * i + 1]! + QC[3 * i + 1]! + QC[3 + i]! - cwc1;
-    X[3 * i + 2] = P[3 * i + 2]! + QC[3 * i + 2]! + QC[6 + i]! - cwc2;
-  }
-  rotateBlockInto(R, X, Y, outA, 0, true);
-  rotateBlockInto(R, W, Y, outA, 21, true);
+  const q00 = A[3]!, q01 = A[4]!, q02 = A[5]!, q10 = A[9]!, q11 = A[10]!, q12 = A[11]!, q20 = A[15]!, q21 = A[16]!, q22 = A[17]!;
+  const w00 = A[21]!, w01 = A[22]!, w02 = A[23]!, w11 = A[28]!, w12 = A[29]!, w22 = A[35]!;
+  // QC: row i is q_i × t.
+  const qc00 = q01 * tz - q02 * ty, qc01 = q02 * tx - q00 * tz, qc02 = q00 * ty - q01 * tx;
+  const qc10 = q11 * tz - q12 * ty, qc11 = q12 * tx - q10 * tz, qc12 = q10 * ty - q11 * tx;
+  const qc20 = q21 * tz - q22 * ty, qc21 = q22 * tx - q20 * tz, qc22 = q20 * ty - q21 * tx;
+  // CW: column j is t × w_j (W symmetric).
+  const cw00 = ty * w02 - tz * w01, cw10 = tz * w00 - tx * w02, cw20 = tx * w01 - ty * w00;
+  const cw01 = ty * w12 - tz * w11, cw11 = tz * w01 - tx * w12, cw21 = tx * w11 - ty * w01;
+  const cw02 = ty * w22 - tz * w12, cw12 = tz * w02 - tx * w22, cw22 = tx * w12 - ty * w02;
+  // (CW)C (symmetric): row i is (CW)_i × t; upper triangle.
+  const cwc00 = cw01 * tz - cw02 * ty, cwc01 = cw02 * tx - cw00 * tz, cwc02 = cw00 * ty - cw01 * tx;
+  const cwc11 = cw12 * tx - cw10 * tz, cwc12 = cw10 * ty - cw11 * tx;
+  const cwc22 = cw20 * ty - cw21 * tx;
+  const x00 = A[0]! + 2 * qc00 - cwc00, x01 = A[1]! + qc01 + qc10 - cwc01, x02 = A[2]! + qc02 + qc20 - cwc02;
+  const x11 = A[7]! + 2 * qc11 - cwc11, x12 = A[8]! + qc12 + qc21 - cwc12, x22 = A[14]! + 2 * qc22 - cwc22;
+  rotateInto(R, x00, x01, x02, x01, x11, x12, x02, x12, x22, outA, 0, true);
+  rotateInto(R, q00 - cw00, q01 - cw01, q02 - cw02, q10 - cw10, q11 - cw11, q12 - cw12, q20 - cw20, q21 - cw21, q22 - cw22, outA, 3, false);
+  rotateInto(R, w00, w01, w02, w01, w11, w12, w02, w12, w22, outA, 21, true);
   for (let i = 0; i < 3; i++) for (let j = 0; j < 3; j++) outA[6 * (3 + j) + i] = outA[6 * i + 3 + j]!;
   const b0 = b[3]!, b1 = b[4]!, b2 = b[5]!;
   const v0 = b[0]! - (ty * b2 - tz * b1);
