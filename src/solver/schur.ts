@@ -307,6 +307,10 @@ class Workspace {
   readonly stackIndex: Int32Array[];
   /** Per eliminated block: 1 when it and every block it couples to have 6 tangent coordinates (poses). */
   readonly elim6: Uint8Array;
+  /** Eliminated blocks with fixed coordinates of their own or in a kept block they couple to. */
+  readonly elimWithFixed: number[];
+  /** Tangent size of each eliminated block. */
+  readonly elimTangent: Int32Array;
   /** Per residual block: 1 when it is mapped, 6 inner columns and every non-constant position a 6-dim block (the pose fast path). */
   readonly pose6: Uint8Array;
   /** Per position of the current block: +1 / −1 when its map equals ± the reference position's map, else 0 (pose fast path). */
@@ -341,6 +345,12 @@ class Workspace {
       }
       return Int32Array.from(out);
     });
+    this.elimTangent = Int32Array.from(L.elimBlocks, (id) => problem.parameterBlock(id).tangentSize);
+    this.elimWithFixed = [];
+    L.elimBlocks.forEach((id, ei) => {
+      const fixedHere = problem.parameterBlock(id).fixedTangentIndices.length > 0;
+      if (fixedHere || Array.from(L.couplings[ei]!).some((c) => problem.parameterBlock(c).fixedTangentIndices.length > 0)) this.elimWithFixed.push(ei);
+    });
     this.elim6 = Uint8Array.from(L.elimBlocks, (id, ei) =>
       problem.parameterBlock(id).tangentSize === 6 && Array.from(L.couplings[ei]!).every((c) => problem.parameterBlock(c).tangentSize === 6) ? 1 : 0,
     );
@@ -356,6 +366,11 @@ class Workspace {
     this.residualViews(problem);
     const mapsBySignature = new Map<string, Float64Array[]>();
     const noMaps: Float64Array[] = [];
+    // Consecutive blocks usually have the same sizes (one view after another): compare with the
+    // previous block before building a signature.
+    let prevInner = -1;
+    const prevSizes: number[] = [];
+    let prevMaps = noMaps;
     for (let i = 0; i < nb; i++) {
       const rb = problem.residualBlock(i);
       if (!rb.mapped) {
@@ -363,20 +378,27 @@ class Workspace {
         continue;
       }
       const ps = rb.parameterBlocks;
-      let sig = `${rb.innerSize}`;
       let all6 = rb.innerSize === 6 && ps.length <= 64;
+      let same = rb.innerSize === prevInner && ps.length === prevSizes.length;
       for (let k = 0; k < ps.length; k++) {
         const ts = problem.parameterBlock(ps[k]!).tangentSize;
-        sig += `,${ts}`;
         if (L.posKind[i]![k] !== POS_CONSTANT && ts !== 6) all6 = false;
+        if (same && prevSizes[k] !== ts) same = false;
       }
       this.pose6[i] = all6 ? 1 : 0;
-      let mv = mapsBySignature.get(sig);
-      if (!mv) {
-        mv = ps.map((pb, k) => mapScratch[k]!.subarray(0, rb.innerSize * problem.parameterBlock(pb).tangentSize));
-        mapsBySignature.set(sig, mv);
+      if (!same) {
+        prevInner = rb.innerSize;
+        prevSizes.length = 0;
+        for (const pb of ps) prevSizes.push(problem.parameterBlock(pb).tangentSize);
+        const sig = `${rb.innerSize}:${prevSizes.join(',')}`;
+        let mv = mapsBySignature.get(sig);
+        if (!mv) {
+          mv = prevSizes.map((ts, k) => mapScratch[k]!.subarray(0, rb.innerSize * ts));
+          mapsBySignature.set(sig, mv);
+        }
+        prevMaps = mv;
       }
-      this.mapViews[i] = mv;
+      this.mapViews[i] = prevMaps;
     }
   }
 
@@ -823,34 +845,47 @@ export class NormalEquations {
         this.Hcc[gi * nc + gi] = 1;
       }
     }
-    L.elimBlocks.forEach((id, ei) => {
-      const blk = pr.parameterBlock(id);
-      const te = blk.tangentSize;
+    // Only the eliminated blocks that have, or couple to, fixed coordinates need work here (usually none).
+    for (const ei of this.ws.elimWithFixed) this.fixEliminated(ei);
+    const diag = this.diag;
+    const Hee = this.Hee;
+    for (let ei = 0; ei < L.elimBlocks.length; ei++) {
+      const go = L.globalOffset[L.elimBlocks[ei]!]!;
       const ho = L.heeOffset[ei]!;
-      const couplings = L.couplings[ei]!;
-      const offs = L.hecOffsets[ei]!;
-      for (const f of blk.fixedTangentIndices) {
-        this.g[L.globalOffset[id]! + f] = 0;
-        for (let j = 0; j < te; j++) {
-          this.Hee[ho + f * te + j] = 0;
-          this.Hee[ho + j * te + f] = 0;
-        }
-        this.Hee[ho + f * te + f] = 1;
-        for (let j = 0; j < couplings.length; j++) {
-          const tc = pr.parameterBlock(couplings[j]!).tangentSize;
-          this.Hec.fill(0, offs[j]! + f * tc, offs[j]! + (f + 1) * tc);
-        }
-      }
-      // Kept blocks' fixed columns inside H_ec.
-      for (let j = 0; j < couplings.length; j++) {
-        const c = pr.parameterBlock(couplings[j]!);
-        if (c.fixedTangentIndices.length === 0) continue;
-        const tc = c.tangentSize;
-        for (let u = 0; u < te; u++) for (const f of c.fixedTangentIndices) this.Hec[offs[j]! + u * tc + f] = 0;
-      }
-      for (let u = 0; u < te; u++) this.diag[L.globalOffset[id]! + u] = this.Hee[ho + u * te + u]!;
-    });
+      const te = this.ws.elimTangent[ei]!;
+      for (let u = 0; u < te; u++) diag[go + u] = Hee[ho + u * te + u]!;
+    }
     for (let i = 0; i < nc; i++) this.diag[i] = this.Hcc[i * nc + i]!;
+  }
+
+  /** Fixed coordinates of eliminated block ei (unit diagonal, zero gradient and couplings) and its coupled kept blocks' fixed columns in H_ec. */
+  private fixEliminated(ei: number): void {
+    const pr = this.problem;
+    const L = this.layout;
+    const id = L.elimBlocks[ei]!;
+    const blk = pr.parameterBlock(id);
+    const te = blk.tangentSize;
+    const ho = L.heeOffset[ei]!;
+    const couplings = L.couplings[ei]!;
+    const offs = L.hecOffsets[ei]!;
+    for (const f of blk.fixedTangentIndices) {
+      this.g[L.globalOffset[id]! + f] = 0;
+      for (let j = 0; j < te; j++) {
+        this.Hee[ho + f * te + j] = 0;
+        this.Hee[ho + j * te + f] = 0;
+      }
+      this.Hee[ho + f * te + f] = 1;
+      for (let j = 0; j < couplings.length; j++) {
+        const tc = pr.parameterBlock(couplings[j]!).tangentSize;
+        this.Hec.fill(0, offs[j]! + f * tc, offs[j]! + (f + 1) * tc);
+      }
+    }
+    for (let j = 0; j < couplings.length; j++) {
+      const c = pr.parameterBlock(couplings[j]!);
+      if (c.fixedTangentIndices.length === 0) continue;
+      const tc = c.tangentSize;
+      for (let u = 0; u < te; u++) for (const f of c.fixedTangentIndices) this.Hec[offs[j]! + u * tc + f] = 0;
+    }
   }
 
   /**
