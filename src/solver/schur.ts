@@ -8,6 +8,8 @@
  *   4. for every pair of non-constant positions (k, l):
  *        H_kl += M_kᵀ A M_l,   g_k += M_kᵀ b
  *      (M_k = column selection when the block is not mapped).
+ * A block with linearizeInner() supplies A and b itself (no stored J); maps
+ * that are exactly ±I are added without products (scatterPose6).
  * H is split into the kept part H_cc (dense nc x nc, nc = Σ kept tangent
  * sizes: small), the block-diagonal eliminated part H_ee (one te x te block
  * per eliminated block) and the coupling blocks H_ec (te x tc), stored only
