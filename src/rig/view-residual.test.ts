@@ -296,3 +296,30 @@ describe('ViewResidual chain C⁻¹ · F shortcut', () => {
     s.g.forEach((v, q) => expectMatrixClose(v, g.g[q]!, { rel: 1e-12 }, `gradient ${q}`));
   });
 });
+
+describe('ViewResidual.setDetections', () => {
+  test('after dropping detections, the block linearises exactly like a block built with the remaining ones', () => {
+    const model = cameraModel('pinhole');
+    const T_ref_cam = pose(0.1, -0.2, [0.3, 0, 0.1]);
+    const params = [poseToArray12(T_ref_cam), poseToArray12(compose(T_ref_cam, pose(0.2, 0.1, [0, 0.1, 1.8])))];
+    const points = Float64Array.of(0, 0, 0, 0.2, 0, 0, 0, 0.2, 0, 0.2, 0.2, 0, 0.1, 0.1, 0);
+    const pixels = Float64Array.of(300, 240, 360, 238, 302, 300, 365, 302, 900, 900); // the last one is gross
+    const invSigma = Float64Array.of(1, 1, 2, 1, 1);
+    const chain: ChainFactor[] = [{ param: 0, sign: -1 }, { param: 1, sign: 1 }];
+    const base = { model, parameterBlocks: [0, 1], chain, intrinsicsParam: -1, intrinsics: Float64Array.of(500, 500, 320, 240) };
+    const block = new ViewResidual({ ...base, points, pixels, invSigma });
+    expect(block.numResiduals).toBe(10);
+    block.setDetections(points.slice(0, 12), pixels.slice(0, 8), invSigma.slice(0, 4));
+    expect(block.numResiduals).toBe(8);
+    expect(block.count).toBe(4);
+    const fresh = new ViewResidual({ ...base, points: points.slice(0, 12), pixels: pixels.slice(0, 8), invSigma: invSigma.slice(0, 4) });
+    const run = (b: ViewResidual) => {
+      const A = new Float64Array(36);
+      const g = new Float64Array(6);
+      const out = new Float64Array(1);
+      expect(b.linearizeInner(params, A, g, [new Float64Array(36), new Float64Array(36)], new Float64Array(3), out)).toBe(true);
+      return [...A, ...g, out[0]!];
+    };
+    expect(run(block)).toEqual(run(fresh));
+  });
+});
