@@ -248,6 +248,6 @@ export function refinePose(
     }
   }
   const norms = new Float64Array(n);
-  for (let i = 0; i < n; i++) norms[i] = Math.hypot(res[2 * i]!, res[2 * i + 1]!);
+  for (let i = 0; i < n; i++) norms[i] = Math.sqrt(res[2 * i]! * res[2 * i]! + res[2 * i + 1]! * res[2 * i + 1]!);
   return { T_cam_target: T, rmsPx: rms(res), residualsPx: norms, residualsUvPx: res, iterations, converged: status === 'converged', status, message };
 }
