@@ -30,8 +30,20 @@ function newestSourceMtime(dir: string): number {
 beforeAll(() => {
   const built = nodePath.join(root, 'dist', 'index.js');
   if (!fs.existsSync(built) || fs.statSync(built).mtimeMs < newestSourceMtime(nodePath.join(root, 'src'))) {
-    execFileSync(process.execPath, [tscBin, '-p', 'tsconfig.build.json'], { cwd: root, stdio: 'pipe' });
+    // The package's own build (tsc, then the CLI entry made executable).
+    execFileSync('npm', ['run', 'build', '--silent'], { cwd: root, stdio: 'pipe' });
   }
+});
+
+describe('command-line entry', () => {
+  test('dist/cli/main.js is executable and runs through its shebang (how npx starts it)', () => {
+    const main = nodePath.join(root, 'dist', 'cli', 'main.js');
+    expect(fs.statSync(main).mode & 0o111).not.toBe(0);
+    const r = spawnSync(main, ['--version'], { cwd: root, encoding: 'utf8' });
+    expect(r.error).toBeUndefined();
+    expect(r.status).toBe(0);
+    expect(r.stdout.trim()).toMatch(/^\d+\.\d+\.\d+$/);
+  });
 });
 
 describe('library API example', () => {
