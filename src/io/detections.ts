@@ -46,6 +46,25 @@ const LF = 10;
 const CR = 13;
 
 /** Loads and checks a detections CSV; throws InputError listing every issue. */
+/** A column of session names (cameras or targets) and what parsing remembers about it. */
+interface NameColumn {
+  noun: 'camera' | 'target';
+  names: string[];
+  /** Name → index; with duplicate names (reported by the session loader) the first entry wins. */
+  index: Map<string, number>;
+  /** Unknown names already reported. */
+  reported: Set<string>;
+  /** Last name found, and its index (−1: none yet). */
+  last: string;
+  lastIdx: number;
+}
+
+function nameColumn(noun: 'camera' | 'target', names: string[]): NameColumn {
+  const index = new Map<string, number>();
+  names.forEach((n, i) => index.has(n) || index.set(n, i));
+  return { noun, names, index, reported: new Set<string>(), last: '', lastIdx: -1 };
+}
+
 export function loadDetections(path: string, ctx: DetectionContext): LoadedDetections {
   const issues = new IssueCollector();
   const result = loadDetectionsCollect(path, ctx, issues);
@@ -92,13 +111,8 @@ export function parseDetections(
   const lineCol = new Int32Array(cap);
   let count = 0;
 
-  const cameraIndex = new Map<string, number>();
-  // With duplicate names (reported by the session loader) the first entry wins.
-  ctx.cameras.forEach((c, i) => cameraIndex.has(c.name) || cameraIndex.set(c.name, i));
-  const targetIndex = new Map<string, number>();
-  ctx.targets.forEach((t, i) => targetIndex.has(t.name) || targetIndex.set(t.name, i));
-  const cameraNames = ctx.cameras.map((c) => c.name);
-  const targetNames = ctx.targets.map((t) => t.name);
+  const cameraColumn = nameColumn('camera', ctx.cameras.map((c) => c.name));
+  const targetColumn = nameColumn('target', ctx.targets.map((t) => t.name));
   const frameIndex = new Map<string, number>();
   const frames: string[] = [];
   const perCamera = new Array<number>(ctx.cameras.length).fill(0);
@@ -110,8 +124,6 @@ export function parseDetections(
   // Duplicate check: one integer key per accepted row, sorted once at the end
   // (a hash table with 500k entries spends its time in cache misses).
   const keyCol = new Float64Array(cap);
-  const unknownCameraReported = new Set<string>();
-  const unknownTargetReported = new Set<string>();
 
   const add = (line: number, message: string, hint?: string) => {
     const issue: InputIssue = { file, line, message };
@@ -146,10 +158,29 @@ export function parseDetections(
   // and comparing in place avoids a substring and a hash lookup per row.
   let lastFrame = '';
   let lastFrameIdx = -1;
-  let lastCam = '';
-  let lastCamIdx = -1;
-  let lastTgt = '';
-  let lastTgtIdx = -1;
+
+  /**
+   * Index of the session name (camera, target) in column `col` of the current
+   * record, or −1 when the session has no such name (reported once per name,
+   * further rows only counted). The last name found is compared in place first.
+   */
+  const resolveName = (c: NameColumn, col: number, recordLine: number): number => {
+    const s0 = fStart[col]!;
+    const len = fEnd[col]! - s0;
+    if (quoted[col] === undefined && c.lastIdx >= 0 && len === c.last.length && text.startsWith(c.last, s0)) return c.lastIdx;
+    const name = field(col);
+    const idx = c.index.get(name) ?? -1;
+    if (idx < 0) {
+      if (!c.reported.has(name)) {
+        c.reported.add(name);
+        add(recordLine, `${c.noun} ${describeValue(name)} is not in the session (first of its rows)`, didYouMean(name, c.names, `a ${c.noun} from the session:`));
+      } else issues.total++;
+    } else {
+      c.last = name;
+      c.lastIdx = idx;
+    }
+    return idx;
+  };
 
   let i = 0;
   let line = 1;
@@ -309,51 +340,10 @@ export function parseDetections(
       }
     }
 
-    // Camera.
-    let cam: number;
-    {
-      const s0 = fStart[colCamera]!;
-      const len = fEnd[colCamera]! - s0;
-      if (quoted[colCamera] === undefined && lastCamIdx >= 0 && len === lastCam.length && text.startsWith(lastCam, s0)) {
-        cam = lastCamIdx;
-      } else {
-        const camName = field(colCamera);
-        cam = cameraIndex.get(camName) ?? -1;
-        if (cam < 0) {
-          rowOk = false;
-          if (!unknownCameraReported.has(camName)) {
-            unknownCameraReported.add(camName);
-            add(recordLine, `camera ${describeValue(camName)} is not in the session (first of its rows)`, didYouMean(camName, cameraNames, 'a camera from the session:'));
-          } else issues.total++;
-        } else {
-          lastCam = camName;
-          lastCamIdx = cam;
-        }
-      }
-    }
-
-    // Target.
-    let tgt: number;
-    {
-      const s0 = fStart[colTarget]!;
-      const len = fEnd[colTarget]! - s0;
-      if (quoted[colTarget] === undefined && lastTgtIdx >= 0 && len === lastTgt.length && text.startsWith(lastTgt, s0)) {
-        tgt = lastTgtIdx;
-      } else {
-        const tgtName = field(colTarget);
-        tgt = targetIndex.get(tgtName) ?? -1;
-        if (tgt < 0) {
-          rowOk = false;
-          if (!unknownTargetReported.has(tgtName)) {
-            unknownTargetReported.add(tgtName);
-            add(recordLine, `target ${describeValue(tgtName)} is not in the session (first of its rows)`, didYouMean(tgtName, targetNames, 'a target from the session:'));
-          } else issues.total++;
-        } else {
-          lastTgt = tgtName;
-          lastTgtIdx = tgt;
-        }
-      }
-    }
+    // Camera and target.
+    const cam = resolveName(cameraColumn, colCamera, recordLine);
+    const tgt = resolveName(targetColumn, colTarget, recordLine);
+    if (cam < 0 || tgt < 0) rowOk = false;
 
     // Point id.
     const point = quoted[colPoint] === undefined ? parseIntAt(text, fStart[colPoint]!, fEnd[colPoint]!) : parseIntField(quoted[colPoint]!);
