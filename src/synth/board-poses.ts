@@ -29,7 +29,6 @@ export function sampleVisibleBoard(rand: () => number, cam: RenderCamera, board:
   const C = board.columns, Rn = board.rows, s = board.squareM;
   const maxTilt = opts.maxTiltRad ?? 0.7, maxRoll = opts.maxRollRad ?? Math.PI, minSq = opts.minSquarePx ?? 20;
   const widthM = (Math.max(C, Rn) + 1) * s;
-  const uv = new Float64Array(2);
   for (let attempt = 0; attempt < 10000; attempt++) {
     const Rz = so3Exp([0, 0, (rand() * 2 - 1) * maxRoll]);
     const Rt = so3Exp([(rand() * 2 - 1) * maxTilt, (rand() * 2 - 1) * maxTilt, 0]);
@@ -41,38 +40,8 @@ export function sampleVisibleBoard(rand: () => number, cam: RenderCamera, board:
     const t = new Float64Array(3);
     for (let i = 0; i < 3; i++) t[i] = ctr[i]! - (R[3 * i]! * bc[0]! + R[3 * i + 1]! * bc[1]!);
     const T = { R, t };
-    let ok = true;
-    const n = 24;
-    for (let k = 0; k <= n && ok; k++) {
-      const f = k / n;
-      for (const [X, Y] of [
-        [-s + f * (C + 1) * s, -s],
-        [-s + f * (C + 1) * s, Rn * s],
-        [-s, -s + f * (Rn + 1) * s],
-        [C * s, -s + f * (Rn + 1) * s],
-      ] as [number, number][]) {
-        if (!projectBoardPoint(cam, T, X, Y, uv) || uv[0]! < 2 || uv[1]! < 2 || uv[0]! > cam.width - 3 || uv[1]! > cam.height - 3) {
-          ok = false;
-          break;
-        }
-      }
-    }
-    if (!ok) continue;
-    const a = new Float64Array(2);
-    for (let r = 0; r < Rn && ok; r++) {
-      for (let c = 0; c < C && ok; c++) {
-        projectBoardPoint(cam, T, c * s, r * s, uv);
-        if (c + 1 < C) {
-          projectBoardPoint(cam, T, (c + 1) * s, r * s, a);
-          if (Math.hypot(a[0]! - uv[0]!, a[1]! - uv[1]!) < minSq) ok = false;
-        }
-        if (r + 1 < Rn) {
-          projectBoardPoint(cam, T, c * s, (r + 1) * s, a);
-          if (Math.hypot(a[0]! - uv[0]!, a[1]! - uv[1]!) < minSq) ok = false;
-        }
-      }
-    }
-    if (ok) return T;
+    // Drawn tilts stay below 90°, so the printed side always faces the camera; boardInView checks it anyway.
+    if (boardInView(cam, board, T, { marginPx: 2, minSquarePx: minSq })) return T;
   }
   throw new Error('sampleVisibleBoard: no admissible pose in 10000 draws; the board is too large or too small for this camera');
 }
