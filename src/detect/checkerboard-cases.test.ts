@@ -6,20 +6,13 @@
 import { describe, expect, test } from 'vitest';
 import { projectBoardPoint, renderBoard, type RenderCamera } from '../synth/render-board.js';
 import { sampleVisibleBoard } from '../synth/board-poses.js';
+import { DETECT_TEST_CAMERA } from '../testing/detect-fixtures.js';
 import { gaussian, rng } from '../testing/numeric.js';
 import { detectCheckerboard, gaussianBlur } from './checkerboard.js';
 import type { GreyImage } from './image.js';
 import { OptionsError } from '../errors.js';
 
-const camera: RenderCamera = {
-  width: 640,
-  height: 480,
-  fx: 520,
-  fy: 520,
-  cx: 319.5,
-  cy: 239.5,
-  distortion: [-0.25, 0.07, 0.001, -0.001, 0],
-};
+const camera: RenderCamera = DETECT_TEST_CAMERA;
 
 /** Board-id permutation for an in-plane rotation by k·90° of a C x R grid: id(c, r) → id of the rotated point. */
 function rotatedId(C: number, R: number, k: number, c: number, r: number): number {

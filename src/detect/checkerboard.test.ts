@@ -14,18 +14,11 @@
 import { beforeAll, describe, expect, test } from 'vitest';
 import { renderBoard, type RenderCamera } from '../synth/render-board.js';
 import { sampleVisibleBoard } from '../synth/board-poses.js';
+import { DETECT_TEST_CAMERA } from '../testing/detect-fixtures.js';
 import { rng } from '../testing/numeric.js';
 import { detectCheckerboard } from './checkerboard.js';
 
-const camera: RenderCamera = {
-  width: 640,
-  height: 480,
-  fx: 520,
-  fy: 520,
-  cx: 319.5,
-  cy: 239.5,
-  distortion: [-0.25, 0.07, 0.001, -0.001, 0],
-};
+const camera: RenderCamera = DETECT_TEST_CAMERA;
 
 describe('detectCheckerboard on 100 random synthetic views', () => {
   const board = { columns: 9, rows: 6, squareM: 0.03 };

@@ -1,9 +1,8 @@
 import * as fs from 'node:fs';
 import * as path from 'node:path';
 import { describe, expect, test } from 'vitest';
-import { InputError } from '../errors.js';
 import { loadSession } from '../io/session.js';
-import { makeTmpDir, VALID_SESSION } from '../testing/io-fixtures.js';
+import { catchInput, makeTmpDir, VALID_SESSION } from '../testing/io-fixtures.js';
 import { checkImagePattern, compareFrameIds, listPatternFiles, planSessionDetection } from './session-detect.js';
 
 function touch(...parts: string[]): string {
@@ -11,16 +10,6 @@ function touch(...parts: string[]): string {
   fs.mkdirSync(path.dirname(p), { recursive: true });
   fs.writeFileSync(p, '');
   return p;
-}
-
-function catchInput(fn: () => unknown): InputError {
-  try {
-    fn();
-  } catch (e) {
-    if (e instanceof InputError) return e;
-    throw e;
-  }
-  throw new Error('expected an InputError');
 }
 
 describe('image patterns', () => {

@@ -1,19 +1,8 @@
 import * as fs from 'node:fs';
 import * as path from 'node:path';
 import { describe, expect, test } from 'vitest';
-import { InputError } from '../errors.js';
 import { buildTarget, DEFAULT_FOCAL_PER_WIDTH, loadSession } from './session.js';
-import { VALID_CSV, VALID_SESSION, writeSessionFixture } from '../testing/io-fixtures.js';
-
-function catchInput(fn: () => unknown): InputError {
-  try {
-    fn();
-  } catch (e) {
-    if (e instanceof InputError) return e;
-    throw e;
-  }
-  throw new Error('expected an InputError');
-}
+import { catchInput, VALID_CSV, VALID_SESSION, writeSessionFixture } from '../testing/io-fixtures.js';
 
 describe('loadSession', () => {
   test('loads a valid session with its detections', () => {

@@ -4,25 +4,24 @@
  * method, design priors; and the statistical consistency of the intrinsic
  * covariance.
  */
-import * as nodePath from 'node:path';
 import { describe, expect, test } from 'vitest';
-import { repoRoot } from '../testing/paths.js';
-import { boxMinus, compose, inverse, type Pose } from '../geometry/se3.js';
-import { so3Angle } from '../geometry/so3.js';
+import { bundledRig, poseError } from '../testing/rig-fixtures.js';
+import type { Pose } from '../geometry/se3.js';
 import { spdInverse } from '../linalg/small.js';
-import { loadRigDescription } from './description-file.js';
 import { simulate } from './simulate.js';
 import { sessionFromSimulation } from './simulate-session.js';
-import { solveRig } from './solve.js';
+import { solveRig, type RigSolution } from './solve.js';
 import { RigSolveError } from './errors.js';
 
-const rig = (name: string) => loadRigDescription(nodePath.join(repoRoot(), 'rigs', name));
+const rig = bundledRig;
 
-function poseError(T: Pose, truth: Pose): { rotDeg: number; transMm: number } {
-  return {
-    rotDeg: (so3Angle(compose(T, inverse(truth)).R) * 180) / Math.PI,
-    transMm: 1000 * Math.hypot(T.t[0]! - truth.t[0]!, T.t[1]! - truth.t[1]!, T.t[2]! - truth.t[2]!),
-  };
+/** Every camera of the solution within maxDeg and maxMm of the simulation's truth. */
+function expectCamerasRecovered(sol: RigSolution, truth: Map<string, Pose>, maxDeg: number, maxMm: number): void {
+  for (const c of sol.cameras) {
+    const e = poseError(c.T_ref_cam, truth.get(c.name)!);
+    expect(e.rotDeg, c.name).toBeLessThan(maxDeg);
+    expect(e.transMm, c.name).toBeLessThan(maxMm);
+  }
 }
 
 describe('calibration room (fixed_targets)', () => {
@@ -30,11 +29,7 @@ describe('calibration room (fixed_targets)', () => {
     const sim = simulate(rig('service-bay.yaml'), { frames: 120, pixelNoisePx: 0.3, seed: 12 });
     const sol = solveRig(sessionFromSimulation(sim));
     expect(sol.converged).toBe(true);
-    for (const c of sol.cameras) {
-      const e = poseError(c.T_ref_cam, sim.T_ref_cam.get(c.name)!);
-      expect(e.rotDeg, c.name).toBeLessThan(0.02);
-      expect(e.transMm, c.name).toBeLessThan(1);
-    }
+    expectCamerasRecovered(sol, sim.T_ref_cam, 0.02, 1);
     expect(sol.targets.map((t) => t.name)).toEqual(sim.description.targets.map((t) => t.spec.name));
     for (const t of sol.targets) {
       const e = poseError(t.T_origin_target, sim.T_origin_target.get(t.name)!);
@@ -49,11 +44,7 @@ describe('fisheye (Kannala–Brandt) rig', () => {
     const sim = simulate(rig('drone-fisheye-3.yaml'), { frames: 150, pixelNoisePx: 0.3, seed: 4 });
     const sol = solveRig(sessionFromSimulation(sim));
     expect(sol.converged).toBe(true);
-    for (const c of sol.cameras) {
-      const e = poseError(c.T_ref_cam, sim.T_ref_cam.get(c.name)!);
-      expect(e.rotDeg, c.name).toBeLessThan(0.02);
-      expect(e.transMm, c.name).toBeLessThan(1);
-    }
+    expectCamerasRecovered(sol, sim.T_ref_cam, 0.02, 1);
   });
 });
 
@@ -154,7 +145,6 @@ describe('design priors', () => {
     expect(right.sigmasFromDesign!).toBeLessThan(3.5);
     const e = poseError(right.T_ref_cam, sim.T_ref_cam.get('right')!);
     expect(e.transMm).toBeLessThan(1);
-    void boxMinus;
   });
 });
 

@@ -2,31 +2,22 @@
  * Rig solver against synthetic ground truth (simulate → solve), statistical
  * consistency of the reported covariance, outliers and flipped views.
  */
-import * as nodePath from 'node:path';
 import { describe, expect, test } from 'vitest';
-import { repoRoot } from '../testing/paths.js';
-import { boxMinus, compose, inverse, type Pose } from '../geometry/se3.js';
-import { so3Angle } from '../geometry/so3.js';
+import { bundledRig, poseError } from '../testing/rig-fixtures.js';
+import { boxMinus, type Pose } from '../geometry/se3.js';
 import { spdInverse } from '../linalg/small.js';
-import { loadRigDescription } from './description-file.js';
 import { simulate } from './simulate.js';
 import { sessionFromSimulation } from './simulate-session.js';
 import { relativeCovariance, solveRig, type RigSolution } from './solve.js';
 import type { CapturePlan } from './description.js';
 
-const rig = (name: string) => loadRigDescription(nodePath.join(repoRoot(), 'rigs', name));
+const rig = bundledRig;
 
 function errors(sol: RigSolution, truth: Map<string, Pose>): { name: string; rotDeg: number; transMm: number; delta: Float64Array }[] {
   return sol.cameras.map((c) => {
     const T_true = truth.get(c.name)!;
     const delta = boxMinus(c.T_ref_cam, T_true); // left perturbation: T_est = exp(δ)·T_true
-    const dR = compose(c.T_ref_cam, inverse(T_true)).R;
-    return {
-      name: c.name,
-      rotDeg: (so3Angle(dR) * 180) / Math.PI,
-      transMm: 1000 * Math.hypot(c.T_ref_cam.t[0]! - T_true.t[0]!, c.T_ref_cam.t[1]! - T_true.t[1]!, c.T_ref_cam.t[2]! - T_true.t[2]!),
-      delta,
-    };
+    return { name: c.name, ...poseError(c.T_ref_cam, T_true), delta };
   });
 }
 

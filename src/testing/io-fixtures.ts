@@ -6,6 +6,7 @@
 import * as fs from 'node:fs';
 import * as os from 'node:os';
 import * as path from 'node:path';
+import { InputError } from '../errors.js';
 import type { RigFile } from '../io/types.js';
 
 const created: string[] = [];
@@ -124,4 +125,15 @@ export function validRig(): RigFile {
     ],
     quality: { rms_px: 0.3, sigma0: 1.02, frames_used: 40, iterations: 9, converged: true },
   };
+}
+
+/** Runs fn and returns the InputError it throws (fails when it throws nothing, rethrows anything else). */
+export function catchInput(fn: () => unknown): InputError {
+  try {
+    fn();
+  } catch (e) {
+    if (e instanceof InputError) return e;
+    throw e;
+  }
+  throw new Error('expected an InputError');
 }
