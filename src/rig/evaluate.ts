@@ -28,7 +28,7 @@ import { quatToMatrix } from '../geometry/rotation.js';
 import type { RigFile, Session } from '../io/types.js';
 import { Problem, solve, huberLoss, type IterationRecord, type LossFunction, type SolveSummary } from '../solver/index.js';
 import { MIN_VIEW_POINTS, groupByFrameTarget, initialiseFramePoses, initialiseViewPoses } from './initialise.js';
-import { OUTLIER_SIGMAS, type CameraResult, type RejectedView, type RigSolution } from './solve.js';
+import { OUTLIER_SIGMAS, solutionFigures, type CameraResult, type RigSolution } from './solve.js';
 import { poseFromBlock, poseToBlock, ViewResidual, type ChainFactor } from './view-residual.js';
 import { cameraUsage, groupViews, viewData, type View } from './views.js';
 
@@ -260,9 +260,6 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
   });
   const totalSq = sq.reduce((a, b) => a + b, 0);
   const totalUsed = used.reduce((a, b) => a + b, 0);
-  const rejectedViews: RejectedView[] = views
-    .filter((v) => v.status !== 'used')
-    .map((v) => ({ frame: session.frames[v.frame]!, camera: names[v.camera]!, target: session.targets[v.target]!.name, reason: v.reason ?? v.status, status: v.status }));
   const warnings: string[] = [];
   for (const c of cameras) if (c.detectionsUsed === 0) warnings.push(`camera ${c.name} has no usable detections in this session: its extrinsic is not checked by this report`);
   // Fitted target poses, keyed like RigSolution.framePoses on main (`${frame}\u0000${target}`).
@@ -280,13 +277,7 @@ export function evaluateRig(session: Session, rig: RigFile, rigPath = 'rig file'
     cameras,
     jointCovariance: joint,
     sigma0,
-    rmsPx: totalUsed > 0 ? Math.sqrt(totalSq / totalUsed) : NaN,
-    framesUsed: new Set(views.filter((v) => v.status === 'used').map((v) => v.frame)).size,
-    iterations: stages.reduce((s, st) => s + st.summary.iterations.length, 0),
-    converged: final.termination === 'converged',
-    summary: final,
-    stages,
-    rejectedViews,
+    ...solutionFigures(session, views, names, stages, totalSq, totalUsed),
     warnings,
     initParent: names.map((_, c) => (c === reference ? -1 : reference)),
     detectionUsed,

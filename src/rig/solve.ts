@@ -115,6 +115,33 @@ export const DEFAULT_RIG_SOLVE_OPTIONS: RigSolveOptions = Object.freeze({
   lm: {},
 }) as RigSolveOptions;
 
+/**
+ * The RigSolution fields every way of producing one computes alike (solve here, fixed-extrinsics
+ * evaluation in evaluate.ts): RMS over the detections used, frames used, LM stages and iterations
+ * (the summary is the last stage's), and the views set aside by frame, camera and target.
+ */
+export function solutionFigures(
+  session: Session,
+  views: readonly View[],
+  names: readonly string[],
+  stages: { name: string; summary: SolveSummary }[],
+  totalSq: number,
+  totalUsed: number,
+): Pick<RigSolution, 'rmsPx' | 'framesUsed' | 'iterations' | 'converged' | 'summary' | 'stages' | 'rejectedViews'> {
+  const final = stages[stages.length - 1]!.summary;
+  return {
+    rmsPx: totalUsed > 0 ? Math.sqrt(totalSq / totalUsed) : NaN,
+    framesUsed: new Set(views.filter((v) => v.status === 'used').map((v) => v.frame)).size,
+    iterations: stages.reduce((s, st) => s + st.summary.iterations.length, 0),
+    converged: final.termination === 'converged',
+    summary: final,
+    stages,
+    rejectedViews: views
+      .filter((v) => v.status !== 'used')
+      .map((v) => ({ frame: session.frames[v.frame]!, camera: names[v.camera]!, target: session.targets[v.target]!.name, reason: v.reason ?? v.status, status: v.status })),
+  };
+}
+
 export interface RejectedView {
   frame: string;
   camera: string;
@@ -601,7 +628,6 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     built = reuseOrBuild(built);
     summary = runStage(round === 0 ? 'least squares' : `least squares (round ${round + 1})`, built);
   }
-  const final = summary!;
   warnings.push(...captureWarnings(session, views));
 
   // 6. Covariance of the camera extrinsics, frame poses marginalised (not needed when all are held fixed).
@@ -689,30 +715,14 @@ export function solveRig(session: Session, opts: Partial<RigSolveOptions> = {}):
     totalSq += sq[c]!;
     totalUsed += used[c]!;
   }
-  const framesUsed = new Set(views.filter((v) => v.status === 'used').map((v) => v.frame)).size;
   const usedKeys = new Set(views.filter((v) => v.status === 'used').map(poseKey));
-  const rejectedViews: RejectedView[] = views
-    .filter((v) => v.status !== 'used')
-    .map((v) => ({
-      frame: session.frames[v.frame]!,
-      camera: names[v.camera]!,
-      target: session.targets[v.target]!.name,
-      reason: v.reason ?? v.status,
-      status: v.status,
-    }));
   return {
     session,
     reference,
     cameras,
     jointCovariance: joint,
     sigma0,
-    rmsPx: totalUsed > 0 ? Math.sqrt(totalSq / totalUsed) : NaN,
-    framesUsed,
-    iterations: stages.reduce((s, st) => s + st.summary.iterations.length, 0),
-    converged: final.termination === 'converged',
-    summary: final,
-    stages,
-    rejectedViews,
+    ...solutionFigures(session, views, names, stages, totalSq, totalUsed),
     warnings,
     initParent,
     targets: targetValues.map((v, t) => ({
